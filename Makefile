@@ -1,0 +1,44 @@
+# Everyday targets. Each one installs what it needs (a virtual environment in
+# .venv, and ngspice from the Debian packages when it is missing).
+VENV   ?= .venv
+PY     := $(VENV)/bin/python
+SUDO   := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
+OUT    ?= build/demo
+
+.PHONY: demo test lint bench ngspice venv clean
+
+venv: $(VENV)/.installed
+
+$(VENV)/.installed: pyproject.toml
+	python3 -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[test,plot]'
+	touch $@
+
+ngspice:
+	@if ! command -v ngspice >/dev/null 2>&1 || ! ldconfig -p | grep -q 'libngspice\.so '; then \
+	  echo "installing ngspice from the Debian packages" >&2; \
+	  $(SUDO) apt-get update -qq && \
+	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq ngspice libngspice0 libngspice0-dev >/dev/null; \
+	fi
+
+demo: ngspice venv
+	@mkdir -p $(OUT)
+	$(VENV)/bin/parasite augment fixtures/demo/buck.cir fixtures/demo/buck.routes.toml \
+	    -o $(OUT)/buck.augmented.cir --report $(OUT)/buck.report.json
+	$(VENV)/bin/parasite report fixtures/demo/buck.cir fixtures/demo/buck.routes.toml
+	$(VENV)/bin/parasite ring fixtures/demo/buck.cir fixtures/demo/buck.routes.toml --node sw \
+	    --measured fixtures/demo/buck.measured.csv --plot $(OUT)/buck.ring.png
+
+test: ngspice venv
+	$(PY) -m pytest
+
+lint: venv
+	$(VENV)/bin/ruff check parasite geometry tests benchmarks
+	$(VENV)/bin/mypy
+
+bench: ngspice venv
+	$(PY) benchmarks/run_all.py
+
+clean:
+	rm -rf build .pytest_cache .mypy_cache .ruff_cache

@@ -1,0 +1,3 @@
+from parasite.cli import main
+
+main()

@@ -1,0 +1,28 @@
+"""Shared test configuration: the report header names the versions that the
+numbers were checked with."""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+
+import numpy
+import scipy
+
+
+def _ngspice_version() -> str:
+    exe = shutil.which("ngspice")
+    if exe is None:
+        return "not found"
+    try:
+        out = subprocess.run([exe, "-v"], capture_output=True, text=True, timeout=20).stdout
+    except (OSError, subprocess.SubprocessError):
+        return "unreadable"
+    for line in out.splitlines():
+        if "ngspice-" in line:
+            return line.strip(" *")
+    return out.strip().splitlines()[0] if out.strip() else "unknown"
+
+
+def pytest_report_header(config: object) -> list[str]:
+    return [f"numpy {numpy.__version__}, scipy {scipy.__version__}, {_ngspice_version()}"]
