@@ -1,0 +1,170 @@
+"""The report of a run: what was extracted, as a JSON-ready dict, aligned text
+or CSV (keys and units per the command-line contract: SI, no unit strings)."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from typing import Any
+
+import numpy as np
+
+REPORT_FORMAT = "parasite-report/1"
+CAUTION = (
+    "Estimates from closed-form partial-inductance formulas: confirm them by measurement. "
+    "Probing a live power stage is hazardous: follow local codes and licensed practice."
+)
+
+
+def _num(x: float) -> float | None:
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def segment_couplings(L: np.ndarray, min_coupling: float, block: int = 2048) -> list[tuple[int, int, float, float]]:
+    """Segment pairs (i < j) with |k| >= ``min_coupling``: (i, j, mutual H, k),
+    computed in row blocks so that no second N x N array is made."""
+    n = L.shape[0]
+    d = np.sqrt(np.diag(L))
+    out: list[tuple[int, int, float, float]] = []
+    for r0 in range(0, n, block):
+        r1 = min(n, r0 + block)
+        k = L[r0:r1] / np.outer(d[r0:r1], d)
+        rows, cols = np.nonzero(np.abs(k) >= min_coupling)
+        sel = cols > rows + r0
+        rows, cols = rows[sel], cols[sel]
+        for a, b in zip((rows + r0).tolist(), cols.tolist(), strict=True):
+            out.append((a, b, float(L[a, b]), float(L[a, b] / (d[a] * d[b]))))
+    return out
+
+
+def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any = None,
+                 node_names: dict[int, str] | None = None) -> dict[str, Any]:
+    """The JSON report of one extraction (see docs: command-line contract)."""
+    from parasite.loops import loop_result_dict, loop_results
+
+    inputs = extraction.inputs
+    graph = inputs.graph
+    L, R = extraction.L, extraction.R
+    names = node_names or {n.id: f"{n.net}#{n.id}" for n in graph.nodes}
+    segments = []
+    for s in graph.segments:
+        segments.append({
+            "id": s.id, "net": s.net, "kind": s.kind, "layer": s.layer,
+            "from": names[s.node_from], "to": names[s.node_to],
+            "length": _num(s.length), "width": _num(s.width), "thickness": _num(s.thickness),
+            "inductance": _num(L[s.index, s.index]), "resistance": _num(R[s.index]),
+            "source": s.source, "name": s.name,
+        })
+    couplings = [
+        {"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
+        for i, j, m, k in segment_couplings(L, options.min_coupling)
+    ] if len(L) else []
+    loops = [loop_result_dict(r) for r in loop_results(graph, inputs.netlist, L, R)] if graph.routes.loops else []
+    n_br = len(branches or [])
+    summary: dict[str, Any] = {
+        "segments": len(graph.segments),
+        "branches": n_br,
+        "couplings_written": int(selection.kept) if selection is not None else 0,
+        "couplings_dropped": int(selection.dropped) if selection is not None else 0,
+        "min_coupling": float(options.min_coupling),
+        "passive": bool(selection is None or selection.min_eigenvalue > 0),
+        "min_eigenvalue": _num(selection.min_eigenvalue) if selection is not None else None,
+        "sparsification": selection.method if selection is not None else None,
+        "sparsification_note": selection.note if selection is not None else "",
+        "frequency": extraction.frequency,
+        "loops_over_limit": sum(1 for lp in loops if lp.get("within_limit") is False),
+    }
+    return {
+        "format": REPORT_FORMAT,
+        "netlist": inputs.netlist_path,
+        "routes": inputs.routes_path,
+        "segments": segments,
+        "couplings": couplings,
+        "loops": loops,
+        "summary": summary,
+        "warnings": list(graph.warnings),
+        "caution": CAUTION,
+    }
+
+
+def report_json(report: dict[str, Any]) -> str:
+    return json.dumps(report, indent=2, allow_nan=False) + "\n"
+
+
+def _table(headers: list[str], rows: list[list[str]], right: set[int] | None = None) -> list[str]:
+    """An aligned text table; columns in ``right`` are right-aligned."""
+    right = right or set()
+    widths = [max([len(h)] + [len(r[c]) for r in rows]) for c, h in enumerate(headers)]
+
+    def line(cells: list[str]) -> str:
+        return "  ".join(
+            cell.rjust(widths[c]) if c in right else cell.ljust(widths[c]) for c, cell in enumerate(cells)
+        ).rstrip()
+
+    return [line(headers), line(["-" * w for w in widths])] + [line(r) for r in rows]
+
+
+def report_text(report: dict[str, Any], max_couplings: int = 20) -> str:
+    """The report as aligned text tables for a person."""
+    from parasite.loops import format_loop_table
+
+    out: list[str] = [f"parasite report: {report['netlist']} + {report['routes']}", ""]
+    segs = report["segments"]
+    nets: dict[str, list[dict[str, Any]]] = {}
+    for s in segs:
+        nets.setdefault(s["net"], []).append(s)
+    out.append(f"Nets with copper: {len(nets)}")
+    out += _table(
+        ["net", "segments", "length mm", "L sum nH"],
+        [[n, str(len(v)), f"{1e3 * sum(s['length'] for s in v):.2f}",
+          f"{1e9 * sum(s['inductance'] for s in v):.3f}"] for n, v in nets.items()],
+        right={1, 2, 3},
+    )
+    out += ["", f"Segments: {len(segs)}"]
+    out += _table(
+        ["id", "kind", "layer", "from", "to", "length mm", "width mm", "L nH", "R mohm", "where"],
+        [[s["id"], s["kind"], str(s["layer"] or "-"), s["from"], s["to"], f"{1e3 * s['length']:.3f}",
+          f"{1e3 * s['width']:.3f}", f"{1e9 * s['inductance']:.4f}", f"{1e3 * s['resistance']:.4f}",
+          s["name"] or s["source"]] for s in segs],
+        right={5, 6, 7, 8},
+    )
+    cpl = sorted(report["couplings"], key=lambda c: -abs(c["k"]))
+    out += ["", f"Couplings between segments with |k| >= {report['summary']['min_coupling']:g}: "
+            f"{len(cpl)}" + (f" (strongest {max_couplings} shown)" if len(cpl) > max_couplings else "")]
+    if cpl:
+        out += _table(["a", "b", "M nH", "k"],
+                      [[c["a"], c["b"], f"{1e9 * c['mutual']:.4f}", f"{c['k']:+.4f}"]
+                       for c in cpl[:max_couplings]], right={2, 3})
+    if report["loops"]:
+        out += ["", "Loops:", format_loop_table(report["loops"])]
+    sm = report["summary"]
+    out += ["", "Summary:"]
+    out += [f"  {k}: {v}" for k, v in sm.items()]
+    out += ["", f"Warnings: {len(report['warnings'])}"] + [f"  {w}" for w in report["warnings"]]
+    out += ["", report["caution"]]
+    return "\n".join(out) + "\n"
+
+
+CSV_TABLES = ("segments", "couplings", "loops")
+
+
+def report_csv(report: dict[str, Any], table: str = "segments") -> str:
+    """One table of the report as CSV (SI units, header row first)."""
+    rows = report[table]
+    buf = io.StringIO()
+    if table == "loops":
+        rows = [{k: v for k, v in r.items() if not isinstance(v, list | dict)} for r in rows]
+    fields = list(rows[0].keys()) if rows else {
+        "segments": ["id", "net", "kind", "layer", "from", "to", "length", "width", "thickness",
+                     "inductance", "resistance", "source", "name"],
+        "couplings": ["a", "b", "mutual", "k"],
+        "loops": ["name", "inductance", "resistance", "frequency", "limit", "within_limit"],
+    }[table]
+    writer = csv.DictWriter(buf, fieldnames=fields, lineterminator="\n")
+    writer.writeheader()
+    for r in rows:
+        writer.writerow({k: ("" if r.get(k) is None else r.get(k)) for k in fields})
+    return buf.getvalue()
