@@ -1,0 +1,53 @@
+"""Options shared by several subcommands."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import click
+
+from parasite.units import parse_spice_number
+
+
+class SpiceNumber(click.ParamType):
+    """A number given as ``1e8``, ``100meg`` or ``100MHz``."""
+
+    name = "number"
+
+    def __init__(self, minimum: float | None = None, exclusive: bool = True) -> None:
+        self.minimum = minimum
+        self.exclusive = exclusive
+
+    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> float:
+        try:
+            x = parse_spice_number(value)
+        except ValueError as exc:
+            self.fail(str(exc), param, ctx)
+        if self.minimum is not None and (x <= self.minimum if self.exclusive else x < self.minimum):
+            rel = ">" if self.exclusive else ">="
+            self.fail(f"{value!r} must be {rel} {self.minimum:g}", param, ctx)
+        return x
+
+
+netlist_arg = click.argument("netlist", type=click.Path(dir_okay=False, allow_dash=True))
+routes_arg = click.argument("routes", type=click.Path(dir_okay=False))
+frequency_opt = click.option(
+    "--frequency", type=SpiceNumber(minimum=0.0), default=None,
+    help="Resistance at this frequency in Hz (skin effect estimate); default DC. Accepts 100meg.",
+)
+min_coupling_opt = click.option(
+    "--min-coupling", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True), default=None,
+    help="Write coupling statements only for |k| at or above this (default 0.02).",
+)
+quiet_opt = click.option("--quiet", "-q", is_flag=True, help="No progress on standard error.")
+
+
+def progress_callback(quiet: bool) -> Any:
+    """A progress callback for the extraction (None when quiet or unavailable)."""
+    if quiet:
+        return None
+    try:
+        from parasite.progress import make_progress  # type: ignore[attr-defined]
+    except ImportError:
+        return None
+    return make_progress()

@@ -1,0 +1,47 @@
+"""``parasite report``: what was extracted."""
+
+from __future__ import annotations
+
+import click
+
+from parasite.cli import reports_input_errors
+from parasite.cli.options import (
+    frequency_opt,
+    min_coupling_opt,
+    netlist_arg,
+    progress_callback,
+    quiet_opt,
+    routes_arg,
+)
+
+
+@click.command()
+@netlist_arg
+@routes_arg
+@click.option("--format", "fmt", type=click.Choice(["text", "json", "csv"]), default="text",
+              show_default=True)
+@click.option("--table", type=click.Choice(["segments", "couplings", "loops"]), default="segments",
+              show_default=True, help="With --format csv: which table.")
+@click.option("-o", "--output", default="-", show_default=True, help="A file, or - for standard output.")
+@min_coupling_opt
+@frequency_opt
+@quiet_opt
+@reports_input_errors
+def report(netlist: str, routes: str, fmt: str, table: str, output: str,
+           min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
+    """Report the segments, couplings, loops and warnings of NETLIST + ROUTES
+    (SI units in JSON and CSV)."""
+    from parasite.augment import augment_files
+    from parasite.outputs import check_output_path, write_output
+    from parasite.report import report_csv, report_json, report_text
+
+    check_output_path(output, [netlist, routes])
+    result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
+                           progress=progress_callback(quiet))
+    if fmt == "json":
+        text = report_json(result.report)
+    elif fmt == "csv":
+        text = report_csv(result.report, table)
+    else:
+        text = report_text(result.report)
+    write_output(output, text.encode(), [netlist, routes])
