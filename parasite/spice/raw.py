@@ -165,6 +165,7 @@ def read_raw_bytes(data: bytes, *, name: str = "<raw>") -> list[Plot]:
             )
         flags = header.get("flags", "real").lower()
         is_complex = "complex" in flags
+        values: np.ndarray
         if mode == "binary":
             width = 16 if is_complex else 8
             row = width * nvars
@@ -184,10 +185,8 @@ def read_raw_bytes(data: bytes, *, name: str = "<raw>") -> list[Plot]:
             values, pos = _read_ascii_values(data, pos, nvars, npoints, is_complex, name)
         vectors: dict[str, np.ndarray] = {}
         for i, vname in enumerate(names):
-            column = np.array(values[:, i])
-            if i == 0 and is_complex:
-                column = column.real.copy()
-            vectors[vname] = column
+            column: np.ndarray = np.array(values[:, i])
+            vectors[vname] = column.real.copy() if (i == 0 and is_complex) else column
         plots.append(
             Plot(
                 name=header.get("plotname", ""),
