@@ -53,7 +53,7 @@ def test_series_loop_rings_at_the_damped_frequency(tmp_path: Path) -> None:
 
     res = run_ngspice(result.netlist_bytes, base_dir=tmp_path)
     t = np.asarray(res.scale)
-    vc = np.asarray(res.vector("v(p)")) - np.asarray(res.vector("v(n)"))
+    vc = np.asarray(res.vector("v(n)")) - np.asarray(res.vector("v(p)"))
     keep = t > 20e-9
     f_sim = _zero_crossing_frequency(t[keep], vc[keep] - 1.0)
     assert f_sim == pytest.approx(f_expected, rel=0.02)
