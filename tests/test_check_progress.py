@@ -1,0 +1,53 @@
+"""The progress line of long extractions (parasite.progress)."""
+
+from __future__ import annotations
+
+import io
+
+from parasite.progress import ProgressLine, progress_reporter
+
+
+class Clock:
+    def __init__(self) -> None:
+        self.t = 0.0
+
+    def __call__(self) -> float:
+        return self.t
+
+
+class Terminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_quiet_or_not_a_terminal_shows_nothing():
+    assert progress_reporter(True, Terminal()) is None
+    assert progress_reporter(False, io.StringIO()) is None
+    assert isinstance(progress_reporter(False, Terminal()), ProgressLine)
+
+
+def test_nothing_before_the_delay_then_counts_then_erased():
+    out, clock = io.StringIO(), Clock()
+    line = ProgressLine(out, clock=clock, delay=1.0, interval=0.2)
+    line(10, 1000)
+    clock.t = 0.5
+    line(400, 1000)
+    assert out.getvalue() == ""
+    clock.t = 1.1
+    line(500, 1000)
+    assert out.getvalue() == "\rsegment pairs: 500 of 1,000 (50%)"
+    clock.t = 1.15  # within the redraw interval: skipped
+    line(600, 1000)
+    assert out.getvalue().count("\r") == 1
+    clock.t = 1.16  # the last call is always drawn
+    line(1000, 1000)
+    assert out.getvalue().endswith("\rsegment pairs: 1,000 of 1,000 (100%)")
+    line.close()
+    assert out.getvalue().endswith("\r" + " " * len("segment pairs: 1,000 of 1,000 (100%)") + "\r")
+
+
+def test_close_without_drawing_writes_nothing():
+    out = io.StringIO()
+    with ProgressLine(out, clock=Clock()) as line:
+        line(1, 2)
+    assert out.getvalue() == ""
