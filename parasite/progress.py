@@ -5,7 +5,8 @@
 when nothing should be shown: with ``--quiet``, and when standard error is not
 a terminal (a makefile's log, a pipe), so that logs stay clean. The line
 appears only once the work has taken longer than ``delay`` seconds, is redrawn
-at most every ``interval`` seconds, and is erased when the work is done.
+at most every ``interval`` seconds, and is erased when the work is done
+(``done >= total``) or on :meth:`ProgressLine.close`.
 """
 
 from __future__ import annotations
@@ -49,7 +50,10 @@ class ProgressLine:
         if now - self.started < self.delay:
             return
         finished = total > 0 and done >= total
-        if self._last_draw is not None and now - self._last_draw < self.interval and not finished:
+        if finished:  # the work is done: erase the line rather than leave it
+            self.close()
+            return
+        if self._last_draw is not None and now - self._last_draw < self.interval:
             return
         percent = f" ({100.0 * done / total:.0f}%)" if total > 0 else ""
         text = f"{self.label}: {done:,} of {total:,}{percent}"
@@ -87,3 +91,9 @@ def progress_reporter(
     except (AttributeError, ValueError):  # closed or unusual streams
         tty = False
     return ProgressLine(stream, label=label) if tty else None
+
+
+def make_progress(stream: TextIO | None = None) -> ProgressLine | None:
+    """The extraction's progress callback for a command run without ``--quiet``:
+    a :class:`ProgressLine` when standard error is a terminal, else None."""
+    return progress_reporter(False, stream)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import io
 
-from parasite.progress import ProgressLine, progress_reporter
+from parasite.progress import ProgressLine, make_progress, progress_reporter
 
 
 class Clock:
@@ -24,6 +24,8 @@ def test_quiet_or_not_a_terminal_shows_nothing():
     assert progress_reporter(True, Terminal()) is None
     assert progress_reporter(False, io.StringIO()) is None
     assert isinstance(progress_reporter(False, Terminal()), ProgressLine)
+    assert make_progress(io.StringIO()) is None
+    assert isinstance(make_progress(Terminal()), ProgressLine)
 
 
 def test_nothing_before_the_delay_then_counts_then_erased():
@@ -39,11 +41,15 @@ def test_nothing_before_the_delay_then_counts_then_erased():
     clock.t = 1.15  # within the redraw interval: skipped
     line(600, 1000)
     assert out.getvalue().count("\r") == 1
-    clock.t = 1.16  # the last call is always drawn
+    clock.t = 1.5
+    line(999, 1000)
+    assert out.getvalue().endswith("\rsegment pairs: 999 of 1,000 (100%)")
+    clock.t = 1.51  # done: the line is erased at once
     line(1000, 1000)
-    assert out.getvalue().endswith("\rsegment pairs: 1,000 of 1,000 (100%)")
+    assert out.getvalue().endswith("\r" + " " * len("segment pairs: 999 of 1,000 (100%)") + "\r")
+    n = len(out.getvalue())
     line.close()
-    assert out.getvalue().endswith("\r" + " " * len("segment pairs: 1,000 of 1,000 (100%)") + "\r")
+    assert len(out.getvalue()) == n
 
 
 def test_close_without_drawing_writes_nothing():
