@@ -59,7 +59,7 @@ from scipy.sparse.csgraph import connected_components, minimum_spanning_tree
 from scipy.sparse.linalg import splu
 
 from geometry.errors import RoutesError
-from geometry.model import CopperGraph, LoopSpec
+from geometry.model import CopperGraph, LoopSpec, canonical_net
 from parasite.errors import ParasiteError
 
 DEFAULT_TOP_PAIRS = 10
@@ -289,7 +289,7 @@ def _resolve_stops(
     if len(spec.path) < 2:
         raise _routes_error(
             spec, file, f"loop[{spec.index}].path",
-            f"loop {spec.name!r} names {len(spec.path)} terminal(s); a loop needs at least three, "
+            f"loop {spec.name!r} names {len(spec.path)} terminal(s); a loop needs at least two, "
             "for example [\"C5:1\", \"M1:d\", \"M1:s\", \"C5:2\"]",
         )
     stops: list[_Stop] = []
@@ -307,7 +307,7 @@ def _resolve_stops(
             net = netlist.terminal_node(element, term)
         except ParasiteError as exc:
             raise _routes_error(spec, file, key, f"terminal {text!r}: {exc.message}") from exc
-        net = net.lower()
+        net = canonical_net(net)
         if (element, index) in placed:
             node = placed[(element, index)]
         elif net in graph.anchors:

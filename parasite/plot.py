@@ -1,0 +1,349 @@
+"""Pictures of the copper: the board from above, and the coupling matrix.
+
+The board view draws every segment to scale (traces as bars of their width
+with round ends, vias as discs of their diameter), one colour per layer; the
+shade of a segment shows a value per segment: its term of one loop's
+inductance (:mod:`parasite.loops`) or its partial self inductance. Pins carry
+their terminal's name; a scale bar gives the size. Return planes are ideal and
+are not drawn (the subtitle names them). The coupling view is a heat map of
+``k_ij = L_ij / sqrt(L_ii L_jj)``, segments ordered by net.
+
+matplotlib is an optional dependency, imported only here and only when a
+picture is asked for; no display is needed (the figure is drawn off-screen and
+returned as PNG or SVG bytes). Each drawn segment's artist has the id
+``segment:<id>`` and each pin label ``pin:<terminal>``, so that SVG output can
+be searched.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from collections.abc import Sequence
+from typing import TYPE_CHECKING, Any, Literal
+
+import numpy as np
+
+from geometry.model import CopperGraph, Segment
+from parasite.errors import ParasiteError
+
+if TYPE_CHECKING:
+    from matplotlib.axes import Axes
+    from matplotlib.figure import Figure
+
+    from parasite.loops import LoopResult
+
+PlotFormat = Literal["png", "svg"]
+PLOT_FORMATS: tuple[str, ...] = ("png", "svg")
+
+# Sequential colour maps, one per copper layer in the routes file's order; vias
+# and probe leads have their own. Shades use the upper part of each map so that
+# a segment with no share stays visible.
+LAYER_CMAPS = ("Reds", "Blues", "Greens", "Purples", "Oranges", "PuRd", "YlGn", "BuGn")
+VIA_CMAP = "Greys"
+SHADE_LOW, SHADE_HIGH = 0.22, 0.95
+DPI = 150
+
+
+class PlotDependencyError(ParasiteError):
+    """matplotlib, which pictures need, is not installed."""
+
+
+def _matplotlib() -> Any:
+    try:
+        import matplotlib
+    except ImportError as exc:
+        raise PlotDependencyError(
+            "pictures need matplotlib, which is not installed; install it with "
+            "pip install 'parasite[plot]' (or pip install matplotlib)",
+            file="parasite plot",
+        ) from exc
+    return matplotlib
+
+
+def plot_format(path: str) -> PlotFormat:
+    """The picture format from a file name's extension (``.png`` or ``.svg``,
+    any case); ValueError names what is accepted."""
+    suffix = path.rsplit(".", 1)[-1].lower() if "." in path else ""
+    if suffix == "png":
+        return "png"
+    if suffix == "svg":
+        return "svg"
+    raise ValueError(f"{path!r}: the picture format comes from the extension; use .png or .svg")
+
+
+# ---------------------------------------------------------------------------
+# Geometry of the drawing (pure numpy)
+
+
+def stadium(start: Sequence[float], end: Sequence[float], width: float, n_arc: int = 9) -> np.ndarray:
+    """Outline (M x 2) of a bar of ``width`` from ``start`` to ``end`` (x, y) with
+    round ends of diameter ``width``, counter-clockwise (same unit as the input)."""
+    p0 = np.asarray(start[:2], dtype=float)
+    p1 = np.asarray(end[:2], dtype=float)
+    d = p1 - p0
+    angle = math.atan2(d[1], d[0]) if np.any(d) else 0.0
+    r = width / 2.0
+    a1 = angle - math.pi / 2 + np.linspace(0.0, math.pi, n_arc)
+    a0 = angle + math.pi / 2 + np.linspace(0.0, math.pi, n_arc)
+    arc1 = p1 + r * np.column_stack([np.cos(a1), np.sin(a1)])
+    arc0 = p0 + r * np.column_stack([np.cos(a0), np.sin(a0)])
+    return np.vstack([arc1, arc0])
+
+
+def nice_length(span: float) -> float:
+    """A round length (1, 2 or 5 times a power of ten) of about a fifth of ``span``."""
+    if span <= 0 or not math.isfinite(span):
+        return 1.0
+    target = span / 5.0
+    power = 10.0 ** math.floor(math.log10(target))
+    for m in (5.0, 2.0, 1.0):
+        if m * power <= target:
+            return m * power
+    return power
+
+
+def _format_length_mm(mm: float) -> str:
+    return f"{mm * 1e3:g} um" if mm < 1 else f"{mm:g} mm"
+
+
+def coupling_matrix(L: np.ndarray) -> np.ndarray:
+    """k_ij = L_ij / sqrt(L_ii L_jj) (dimensionless; the diagonal is 1)."""
+    d = np.sqrt(np.diag(L))
+    return np.asarray(L / np.outer(d, d))
+
+
+def net_order(graph: CopperGraph) -> np.ndarray:
+    """Segment indices ordered by net (the graph's net order), then by index."""
+    net = np.asarray(graph.arrays.net_index)
+    return np.lexsort((np.arange(len(net)), net))
+
+
+# ---------------------------------------------------------------------------
+# Figures
+
+
+def _board_extent(graph: CopperGraph) -> tuple[float, float, float, float]:
+    """x0, x1, y0, y1 in mm of all copper and pins, with a margin."""
+    xs: list[float] = []
+    ys: list[float] = []
+    for s in graph.segments:
+        r = s.width / 2
+        for p in (s.start, s.end):
+            xs += [p[0] - r, p[0] + r]
+            ys += [p[1] - r, p[1] + r]
+    for pn in graph.pins:
+        xs.append(pn.pin.at[0])
+        ys.append(pn.pin.at[1])
+    if not xs:
+        return (0.0, 1.0, 0.0, 1.0)
+    x0, x1, y0, y1 = 1e3 * min(xs), 1e3 * max(xs), 1e3 * min(ys), 1e3 * max(ys)
+    margin = 0.08 * max(x1 - x0, y1 - y0, 1e-3)
+    return (x0 - margin, x1 + margin, y0 - margin, y1 + margin)
+
+
+def _layer_rank(graph: CopperGraph) -> dict[str, int]:
+    """Drawing order of the trace layers: lowest first, so the top sits on top."""
+    layers = [ly for ly in graph.routes.layers.values() if ly.plane is None]
+    return {ly.name: k for k, ly in enumerate(sorted(layers, key=lambda ly: ly.z))}
+
+
+def _truncated(cmap: Any) -> Any:
+    from matplotlib.colors import ListedColormap
+
+    return ListedColormap(cmap(np.linspace(SHADE_LOW, SHADE_HIGH, 256)))
+
+
+def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
+                value_label: str, fig: Figure) -> None:
+    import matplotlib as mpl
+    from matplotlib.cm import ScalarMappable
+    from matplotlib.colors import Normalize
+    from matplotlib.patches import Circle, Polygon
+    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
+
+    norm = Normalize(vmin=0.0, vmax=vmax if vmax > 0 else 1.0)
+    file_layers = [ly.name for ly in graph.routes.layers.values() if ly.plane is None]
+    cmaps = {name: _truncated(mpl.colormaps[LAYER_CMAPS[k % len(LAYER_CMAPS)]])
+             for k, name in enumerate(file_layers)}
+    via_cmap = _truncated(mpl.colormaps[VIA_CMAP])
+    rank = _layer_rank(graph)
+    top_rank = max(rank.values(), default=0)
+
+    def shade(cmap: Any, v: float) -> Any:
+        return cmap(norm(max(v, 0.0)))
+
+    traces = [s for s in graph.segments if s.kind == "trace"]
+    traces.sort(key=lambda s: (rank.get(s.layer or "", 0), s.index))
+    for s in traces:
+        cmap = cmaps.get(s.layer or "", via_cmap)
+        outline = 1e3 * stadium(s.start, s.end, s.width)
+        z = 1.0 + rank.get(s.layer or "", 0)
+        ax.add_patch(Polygon(outline, closed=True, facecolor=shade(cmap, values[s.index]),
+                             edgecolor=cmap(1.0), linewidth=0.4, zorder=z,
+                             gid=f"segment:{s.id}"))
+        if rank.get(s.layer or "", 0) < top_rank:  # copper under other layers: dashed outline on top
+            ax.add_patch(Polygon(outline, closed=True, fill=False, edgecolor=cmap(1.0),
+                                 linewidth=0.5, linestyle=(0, (3, 2)), zorder=10.0))
+    round_segments: list[Segment] = [s for s in graph.segments if s.kind == "via"]
+    round_segments.sort(key=lambda s: (values[s.index], s.index))  # largest share on top
+    for s in round_segments:
+        ax.add_patch(Circle((1e3 * s.start[0], 1e3 * s.start[1]), 1e3 * s.width / 2,
+                            facecolor=shade(via_cmap, values[s.index]), edgecolor="black",
+                            linewidth=0.5, zorder=20.0, gid=f"segment:{s.id}"))
+    for s in graph.segments:
+        if s.kind == "probe":
+            ax.plot([1e3 * s.start[0], 1e3 * s.end[0]], [1e3 * s.start[1], 1e3 * s.end[1]],
+                    color=shade(via_cmap, values[s.index]), linewidth=1.5, linestyle="--",
+                    zorder=21.0, gid=f"segment:{s.id}")
+
+    for pn in graph.pins:
+        x, y = 1e3 * pn.pin.at[0], 1e3 * pn.pin.at[1]
+        ax.plot([x], [y], marker="o", markersize=3.5, color="black", zorder=30.0)
+        ax.annotate(pn.pin.terminal, (x, y), xytext=(4, 4), textcoords="offset points",
+                    fontsize=8, zorder=31.0, gid=f"pin:{pn.pin.terminal}",
+                    bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "alpha": 0.8,
+                          "linewidth": 0})
+
+    x0, x1, y0, y1 = _board_extent(graph)
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    ax.set_aspect("equal")
+    ax.set_xlabel("x (mm)")
+    ax.set_ylabel("y (mm)")
+    bar = nice_length(x1 - x0)
+    ax.add_artist(AnchoredSizeBar(ax.transData, bar, _format_length_mm(bar), loc="lower right",
+                                  pad=0.4, borderpad=0.5, sep=3, frameon=True, size_vertical=0,
+                                  fontproperties={"size": 8}))
+
+    # One colour bar per drawn layer (and vias), the same scale on each.
+    drawn = [name for name in file_layers if any(s.layer == name for s in traces)]
+    bars: list[tuple[str, Any]] = [(name, cmaps[name]) for name in drawn]
+    if round_segments:
+        bars.append(("vias", via_cmap))
+    # Each new colour bar goes between the axes and the bars before it: add them
+    # from the right, so they read in layer order, with the scale on the rightmost.
+    for k, (name, cmap) in enumerate(reversed(bars)):
+        sm = ScalarMappable(norm=norm, cmap=cmap)
+        cb = fig.colorbar(sm, ax=ax, fraction=0.025, pad=0.015, aspect=30)
+        cb.ax.set_title(name, fontsize=8, rotation=90)
+        if k == 0:
+            cb.set_label(value_label, fontsize=8)
+            cb.ax.tick_params(labelsize=7)
+        else:
+            cb.ax.set_yticks([])
+
+
+def _draw_couplings(ax: Axes, graph: CopperGraph, L: np.ndarray, fig: Figure) -> None:
+    order = net_order(graph)
+    k = coupling_matrix(L)[np.ix_(order, order)]
+    np.fill_diagonal(k, np.nan)  # the diagonal (1) would hide the structure
+    finite = np.abs(k[np.isfinite(k)])
+    kmax = float(finite.max()) if finite.size else 1.0
+    kmax = kmax if kmax > 0 else 1.0
+    import matplotlib as mpl
+
+    cmap = mpl.colormaps["RdBu_r"].with_extremes(bad="0.85")
+    image = ax.imshow(k, cmap=cmap, vmin=-kmax, vmax=kmax, interpolation="nearest",
+                      origin="upper", gid="couplings")
+    net = np.asarray(graph.arrays.net_index)[order]
+    edges = np.flatnonzero(np.diff(net)) + 1
+    for e in edges:
+        ax.axhline(e - 0.5, color="black", linewidth=0.6)
+        ax.axvline(e - 0.5, color="black", linewidth=0.6)
+    starts = np.concatenate([[0], edges])
+    ends = np.concatenate([edges, [len(net)]])
+    n = len(order)
+    if n <= 40:
+        labels = [graph.segments[int(i)].id for i in order]
+        ax.set_xticks(np.arange(n), labels, rotation=90, fontsize=7)
+        ax.set_yticks(np.arange(n), labels, fontsize=7)
+    else:
+        centres = (starts + ends - 1) / 2.0
+        names = [graph.nets[int(net[s])] for s in starts]
+        ax.set_xticks(centres, names, rotation=90, fontsize=7)
+        ax.set_yticks(centres, names, fontsize=7)
+    ax.set_title("coupling coefficient k, segments by net", fontsize=9)
+    cb = fig.colorbar(image, ax=ax, fraction=0.046, pad=0.04)
+    cb.set_label("k = M / sqrt(La Lb)", fontsize=8)
+    cb.ax.tick_params(labelsize=7)
+
+
+def board_figure(
+    graph: CopperGraph,
+    L: np.ndarray,
+    *,
+    loop: LoopResult | None = None,
+    couplings: bool = False,
+) -> Figure:
+    """The board from above, shaded by ``loop``'s segment terms (or, without a
+    loop, by partial self inductance), with the coupling heat map beside it when
+    ``couplings``. ``L`` is the segments' partial inductance matrix (H)."""
+    _matplotlib()
+    from matplotlib.figure import Figure
+
+    L = np.asarray(L, dtype=float)
+    n = len(graph.segments)
+    if loop is not None:
+        index = {s.id: s.index for s in graph.segments}
+        values = np.zeros(n)
+        for sid, term in loop.contributors:
+            values[index[sid]] = term
+        value_label = "term of the loop inductance (nH)"
+        limit = "" if loop.limit is None else (
+            f", limit {1e9 * loop.limit:.3g} nH" + ("" if loop.within_limit else ", OVER"))
+        title = f"loop {loop.name!r}: {1e9 * loop.inductance:.3g} nH{limit}"
+    else:
+        values = np.diag(L).copy() if n else np.zeros(0)
+        value_label = "partial self inductance (nH)"
+        title = "partial self inductance of each segment"
+    values = 1e9 * values  # nH on the picture
+    vmax = float(values.max()) if n and values.max() > 0 else 1.0
+
+    x0, x1, y0, y1 = _board_extent(graph)
+    aspect = (y1 - y0) / (x1 - x0) if x1 > x0 else 1.0
+    board_w = 7.5
+    board_h = float(np.clip(board_w * aspect, 3.5, 9.0)) + 0.9
+    width = board_w + (6.0 if couplings else 0.0)
+    fig = Figure(figsize=(width, max(board_h, 5.5 if couplings else 0.0)), dpi=DPI,
+                 layout="constrained")
+    if couplings:
+        ax, ax_k = fig.subplots(1, 2, gridspec_kw={"width_ratios": [board_w, 6.0]})
+    else:
+        ax = fig.subplots()
+    _draw_board(ax, graph, values, vmax, value_label, fig)
+    planes = ", ".join(f"{p.layer} (net {p.net})" for p in graph.planes)
+    subtitle = f"\nreturn plane{'s' if len(graph.planes) > 1 else ''}, not drawn: {planes}" \
+        if planes else ""
+    ax.set_title(title + subtitle, fontsize=9)
+    if couplings and n:
+        _draw_couplings(ax_k, graph, L, fig)
+    elif couplings:
+        ax_k.set_axis_off()
+    fig.suptitle("estimates from closed-form formulas; confirm by measurement", fontsize=7,
+                 color="0.35")
+    return fig
+
+
+def render(fig: Figure, fmt: PlotFormat) -> bytes:
+    """The figure as PNG or SVG bytes (deterministic: no dates, fixed ids)."""
+    mpl = _matplotlib()
+    buf = io.BytesIO()
+    with mpl.rc_context({"svg.hashsalt": "parasite", "svg.fonttype": "none"}):
+        if fmt == "svg":
+            fig.savefig(buf, format="svg", metadata={"Date": None})
+        else:
+            fig.savefig(buf, format="png", dpi=DPI, metadata={"Software": None})
+    return buf.getvalue()
+
+
+def plot_bytes(
+    graph: CopperGraph,
+    L: np.ndarray,
+    fmt: PlotFormat,
+    *,
+    loop: LoopResult | None = None,
+    couplings: bool = False,
+) -> bytes:
+    """:func:`board_figure` rendered as ``fmt`` bytes."""
+    return render(board_figure(graph, L, loop=loop, couplings=couplings), fmt)
