@@ -49,7 +49,8 @@ class PlotDependencyError(ParasiteError):
     """matplotlib, which pictures need, is not installed."""
 
 
-def _matplotlib() -> Any:
+def require_matplotlib() -> Any:
+    """The matplotlib module, or :class:`PlotDependencyError` saying how to install it."""
     try:
         import matplotlib
     except ImportError as exc:
@@ -279,7 +280,7 @@ def board_figure(
     """The board from above, shaded by ``loop``'s segment terms (or, without a
     loop, by partial self inductance), with the coupling heat map beside it when
     ``couplings``. ``L`` is the segments' partial inductance matrix (H)."""
-    _matplotlib()
+    require_matplotlib()
     from matplotlib.figure import Figure
 
     L = np.asarray(L, dtype=float)
@@ -327,7 +328,7 @@ def board_figure(
 
 def render(fig: Figure, fmt: PlotFormat) -> bytes:
     """The figure as PNG or SVG bytes (deterministic: no dates, fixed ids)."""
-    mpl = _matplotlib()
+    mpl = require_matplotlib()
     buf = io.BytesIO()
     with mpl.rc_context({"svg.hashsalt": "parasite", "svg.fonttype": "none"}):
         if fmt == "svg":

@@ -1,0 +1,64 @@
+"""``parasite check``: loop budgets, for a makefile.
+
+Prints the loop table on standard output; for every loop over its limit, a
+line ``ROUTES:LINE: loop 'NAME' is over its limit: VALUE > LIMIT`` on standard
+error, and exit code 3. Exit 0 when every loop with a limit is within it, 1
+when the input is in error.
+"""
+
+from __future__ import annotations
+
+import sys
+
+import click
+
+from parasite.cli import EXIT_OVER_LIMIT, reports_input_errors
+from parasite.cli.options import netlist_arg, progress_callback, quiet_opt, routes_arg
+
+
+def _pair(value: float, limit: float) -> tuple[str, str]:
+    """Value and limit with enough digits to tell them apart."""
+    from parasite.loops import engineering
+
+    for digits in (4, 8, 15):
+        a, b = engineering(value, "H", digits), engineering(limit, "H", digits)
+        if a != b:
+            break
+    return a, b
+
+
+@click.command()
+@netlist_arg
+@routes_arg
+@quiet_opt
+@reports_input_errors
+def check(netlist: str, routes: str, quiet: bool) -> None:
+    """Check every [[loop]] of ROUTES against its limit: exit 3 when one is over.
+
+    Loop inductances are estimates from closed-form formulas; leave a margin
+    and confirm by measurement.
+    """
+    from parasite.extract import resistances
+    from parasite.loops import format_loop_table, loop_results
+    from parasite.outputs import write_output
+    from parasite.pipeline import extract, load_inputs
+
+    inputs = load_inputs(netlist, routes)
+    if not inputs.routes.loops:
+        click.echo(f"{routes}: warning: no [[loop]] entries, nothing to check", err=True)
+        return
+    extraction = extract(inputs, progress=progress_callback(quiet))
+    arrays, copper = inputs.graph.arrays, inputs.routes.copper
+    results = loop_results(
+        inputs.graph, inputs.netlist, extraction.L, extraction.R,
+        resistance_at=lambda f: resistances(arrays, copper, f) if len(arrays) else extraction.R,
+    )
+    write_output("-", format_loop_table(results).encode())
+    over = [r for r in results if r.over_limit]
+    for r in over:
+        assert r.limit is not None
+        value, limit = _pair(r.inductance, r.limit)
+        where = f"{routes}:{r.line}" if r.line is not None else f"{routes}: loop[{r.index}]"
+        click.echo(f"{where}: loop {r.name!r} is over its limit: {value} > {limit}", err=True)
+    if over:
+        sys.exit(EXIT_OVER_LIMIT)
