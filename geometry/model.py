@@ -237,3 +237,10 @@ class CopperGraph:
     anchors: dict[str, int]  # net -> node id that keeps the net's original name
     planes: tuple[Plane, ...]
     warnings: tuple[str, ...] = field(default=())
+
+
+def canonical_net(name: str) -> str:
+    """A net name as stored: lower-case (SPICE compares node names without
+    case), with ``gnd`` stored as ``0``."""
+    low = name.strip().lower()
+    return "0" if low == "gnd" else low
