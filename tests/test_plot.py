@@ -162,3 +162,74 @@ def test_missing_matplotlib_is_a_clear_error(monkeypatch):
     monkeypatch.setitem(sys.modules, "matplotlib", None)
     with pytest.raises(PlotDependencyError, match=r"need matplotlib.*pip install 'parasite\[plot\]'"):
         plot_bytes(hand_graph(), hand_L(), "png")
+
+
+# ---------------------------------------------------------------------------
+# The plot subcommand on real files
+
+
+def _cli_files(tmp_path):
+    from tests.test_loops_pipeline import RECT_NET, rect_routes
+
+    (tmp_path / "board.cir").write_text(RECT_NET)
+    (tmp_path / "board.routes.toml").write_text(rect_routes())
+    return str(tmp_path / "board.cir"), str(tmp_path / "board.routes.toml")
+
+
+def test_plot_command_svg_with_a_loop(tmp_path):
+    from click.testing import CliRunner
+
+    from parasite.cli import main
+    from parasite.pipeline import load_inputs
+
+    net, routes = _cli_files(tmp_path)
+    out = str(tmp_path / "loop.svg")
+    result = CliRunner().invoke(main, ["plot", net, routes, "-o", out, "--loop", "rect"])
+    assert result.exit_code == 0, result.output
+    graph = load_inputs(net, routes).graph
+    data = (tmp_path / "loop.svg").read_bytes()
+    ids = _svg_ids(data)
+    assert sorted(i for i in ids if i.startswith("segment:")) == sorted(
+        f"segment:{s.id}" for s in graph.segments)
+    assert sorted(i for i in ids if i.startswith("pin:")) == sorted(
+        f"pin:{p.pin.terminal}" for p in graph.pins)
+    assert "loop 'rect': " in data.decode()
+    # Deterministic: the same inputs give the same bytes.
+    out2 = str(tmp_path / "again.svg")
+    CliRunner().invoke(main, ["plot", net, routes, "-o", out2, "--loop", "rect"])
+    assert (tmp_path / "again.svg").read_bytes() == data
+
+
+def test_plot_command_png_with_couplings(tmp_path):
+    import matplotlib.image as mpimg
+    from click.testing import CliRunner
+
+    from parasite.cli import main
+
+    net, routes = _cli_files(tmp_path)
+    out = tmp_path / "board.png"
+    result = CliRunner().invoke(main, ["plot", net, routes, "-o", str(out), "--couplings"])
+    assert result.exit_code == 0, result.output
+    image = mpimg.imread(str(out))
+    assert image.shape[1] > image.shape[0] > 500
+    with open("/tmp/plots/rect_couplings.png", "wb") as fh:
+        fh.write(out.read_bytes())
+
+
+def test_plot_command_errors(tmp_path, monkeypatch):
+    from click.testing import CliRunner
+
+    from parasite.cli import main
+
+    net, routes = _cli_files(tmp_path)
+    r = CliRunner().invoke(main, ["plot", net, routes, "-o", str(tmp_path / "x.pdf")])
+    assert r.exit_code == 2 and "use .png or .svg" in r.output
+    r = CliRunner().invoke(main, ["plot", net, routes, "-o", str(tmp_path / "x.png"),
+                                  "--loop", "nope"])
+    assert r.exit_code == 2 and "no loop named 'nope'; its loops: 'rect'" in r.output
+    r = CliRunner().invoke(main, ["plot", net, routes, "-o", net])
+    assert r.exit_code == 2  # not .png/.svg: refused before anything else
+    monkeypatch.setitem(sys.modules, "matplotlib", None)
+    r = CliRunner().invoke(main, ["plot", net, routes, "-o", str(tmp_path / "y.png")])
+    assert r.exit_code == 1 and "pip install 'parasite[plot]'" in r.output
+    assert not (tmp_path / "y.png").exists()
