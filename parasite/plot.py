@@ -108,6 +108,24 @@ def _format_length_mm(mm: float) -> str:
     return f"{mm * 1e3:g} um" if mm < 1 else f"{mm:g} mm"
 
 
+def label_rows(points: np.ndarray, radius: float) -> list[int]:
+    """Row of each point's label, so that labels of points closer than
+    ``radius`` (same unit as ``points``, chained) stack instead of overlapping:
+    0 for the first point of each group, 1 for the next, and so on."""
+    from scipy.sparse.csgraph import connected_components
+
+    points = np.asarray(points, dtype=float).reshape(-1, 2)
+    if len(points) == 0:
+        return []
+    d = np.hypot(*(points[:, None, :] - points[None, :, :]).transpose(2, 0, 1))
+    _, group = connected_components(d < radius, directed=False)
+    rows = np.zeros(len(points), dtype=int)
+    for g in np.unique(group):
+        members = np.flatnonzero(group == g)
+        rows[members] = np.arange(len(members))
+    return rows.tolist()
+
+
 def coupling_matrix(L: np.ndarray) -> np.ndarray:
     """k_ij = L_ij / sqrt(L_ii L_jj) (dimensionless; the diagonal is 1)."""
     d = np.sqrt(np.diag(L))
@@ -198,15 +216,16 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
                     color=shade(via_cmap, values[s.index]), linewidth=1.5, linestyle="--",
                     zorder=21.0, gid=f"segment:{s.id}")
 
-    for pn in graph.pins:
-        x, y = 1e3 * pn.pin.at[0], 1e3 * pn.pin.at[1]
+    x0, x1, y0, y1 = _board_extent(graph)
+    at = np.array([[1e3 * pn.pin.at[0], 1e3 * pn.pin.at[1]] for pn in graph.pins]).reshape(-1, 2)
+    rows = label_rows(at, 0.03 * max(x1 - x0, y1 - y0))
+    for pn, (x, y), row in zip(graph.pins, at, rows, strict=True):
         ax.plot([x], [y], marker="o", markersize=3.5, color="black", zorder=30.0)
-        ax.annotate(pn.pin.terminal, (x, y), xytext=(4, 4), textcoords="offset points",
+        ax.annotate(pn.pin.terminal, (x, y), xytext=(4, 4 + 11 * row), textcoords="offset points",
                     fontsize=8, zorder=31.0, gid=f"pin:{pn.pin.terminal}",
                     bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "alpha": 0.8,
                           "linewidth": 0})
 
-    x0, x1, y0, y1 = _board_extent(graph)
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
     ax.set_aspect("equal")

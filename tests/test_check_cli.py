@@ -5,7 +5,7 @@ The limits are set around Grover's rectangle formula for the loop (Grover,
 *Inductance Calculations*, 1946, ch. 16; self-GMD of a rectangle
 0.2235 (w + t), Grover ch. 3, Table 1): 25% above it must pass and 25% below
 it must fail. The extraction agrees with the formula far closer than that for
-this loop (see test_loops_pipeline.py, 6%), so the outcome does not hang on the
+this loop (see test_loops_pipeline.py, 3%), so the outcome does not hang on the
 extraction's last digit.
 """
 
@@ -58,7 +58,7 @@ def test_over_budget_exits_3_naming_loop_value_and_limit(tmp_path):
     value_text, limit_text = line.split("over its limit: ")[1].split(" > ")
     assert limit_text == f"{1e9 * limit:.4g} nH"
     value = float(value_text.removesuffix(" nH")) * 1e-9
-    assert value == pytest.approx(REF, rel=0.06)
+    assert value == pytest.approx(REF, rel=0.03)
 
 
 def test_spice_style_limit_and_a_loop_without_limit(tmp_path):

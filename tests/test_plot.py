@@ -233,3 +233,10 @@ def test_plot_command_errors(tmp_path, monkeypatch):
     r = CliRunner().invoke(main, ["plot", net, routes, "-o", str(tmp_path / "y.png")])
     assert r.exit_code == 1 and "pip install 'parasite[plot]'" in r.output
     assert not (tmp_path / "y.png").exists()
+
+
+def test_labels_of_nearby_pins_stack():
+    from parasite.plot import label_rows
+
+    pts = np.array([[0.0, 0.0], [0.0, 0.0], [0.3, 0.0], [10.0, 0.0], [0.6, 0.1]])
+    assert label_rows(pts, 0.5) == [0, 1, 2, 0, 3]
