@@ -1,7 +1,7 @@
 """Pictures of the copper: the board from above, and the coupling matrix.
 
-The board view draws every segment to scale (traces as bars of their width
-with round ends, vias as discs of their diameter), one colour per layer; the
+The board view draws every segment to scale (traces as the rectangular bars
+they are modelled as, vias as discs of their diameter), one colour per layer; the
 shade of a segment shows a value per segment: its term of one loop's
 inductance (:mod:`parasite.loops`) or its partial self inductance. Pins carry
 their terminal's name; a scale bar gives the size. Return planes are ideal and
@@ -77,19 +77,17 @@ def plot_format(path: str) -> PlotFormat:
 # Geometry of the drawing (pure numpy)
 
 
-def stadium(start: Sequence[float], end: Sequence[float], width: float, n_arc: int = 9) -> np.ndarray:
-    """Outline (M x 2) of a bar of ``width`` from ``start`` to ``end`` (x, y) with
-    round ends of diameter ``width``, counter-clockwise (same unit as the input)."""
+def bar_outline(start: Sequence[float], end: Sequence[float], width: float) -> np.ndarray:
+    """Corners (4 x 2) of a bar of ``width`` from ``start`` to ``end`` (x, y),
+    counter-clockwise: the rectangle the segment is modelled as, seen from
+    above (same unit as the input)."""
     p0 = np.asarray(start[:2], dtype=float)
     p1 = np.asarray(end[:2], dtype=float)
     d = p1 - p0
-    angle = math.atan2(d[1], d[0]) if np.any(d) else 0.0
-    r = width / 2.0
-    a1 = angle - math.pi / 2 + np.linspace(0.0, math.pi, n_arc)
-    a0 = angle + math.pi / 2 + np.linspace(0.0, math.pi, n_arc)
-    arc1 = p1 + r * np.column_stack([np.cos(a1), np.sin(a1)])
-    arc0 = p0 + r * np.column_stack([np.cos(a0), np.sin(a0)])
-    return np.vstack([arc1, arc0])
+    length = float(np.hypot(d[0], d[1]))
+    u = d / length if length > 0 else np.array([1.0, 0.0])
+    n = 0.5 * width * np.array([-u[1], u[0]])
+    return np.array([p0 - n, p1 - n, p1 + n, p0 + n])
 
 
 def nice_length(span: float) -> float:
@@ -194,12 +192,28 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
 
     traces = [s for s in graph.segments if s.kind == "trace"]
     traces.sort(key=lambda s: (rank.get(s.layer or "", 0), s.index))
+    # Where trace segments meet, a disc under them fills the outer corner of a bend.
+    joints: dict[int, tuple[float, float, str]] = {}  # node -> (diameter, value, layer)
+    for s in traces:
+        for node in (s.node_from, s.node_to):
+            d, v, _ = joints.get(node, (math.inf, -math.inf, ""))
+            joints[node] = (min(d, s.width), max(v, values[s.index]), s.layer or "")
+    degree = np.bincount(np.concatenate([[s.node_from for s in traces],
+                                         [s.node_to for s in traces]]).astype(int),
+                         minlength=len(graph.nodes))
+    for node, (d, v, layer) in sorted(joints.items()):
+        if degree[node] < 2:
+            continue
+        p = graph.nodes[node].point
+        cmap = cmaps.get(layer, via_cmap)
+        ax.add_patch(Circle((1e3 * p[0], 1e3 * p[1]), 1e3 * d / 2, facecolor=shade(cmap, v),
+                            edgecolor="none", zorder=0.5 + rank.get(layer, 0)))
     for s in traces:
         cmap = cmaps.get(s.layer or "", via_cmap)
-        outline = 1e3 * stadium(s.start, s.end, s.width)
+        outline = 1e3 * bar_outline(s.start, s.end, s.width)
         z = 1.0 + rank.get(s.layer or "", 0)
         ax.add_patch(Polygon(outline, closed=True, facecolor=shade(cmap, values[s.index]),
-                             edgecolor=cmap(1.0), linewidth=0.4, zorder=z,
+                             edgecolor=cmap(1.0), linewidth=0.3, zorder=z,
                              gid=f"segment:{s.id}"))
         if rank.get(s.layer or "", 0) < top_rank:  # copper under other layers: dashed outline on top
             ax.add_patch(Polygon(outline, closed=True, fill=False, edgecolor=cmap(1.0),

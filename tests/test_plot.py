@@ -32,7 +32,7 @@ from parasite.plot import (
     nice_length,
     plot_bytes,
     plot_format,
-    stadium,
+    bar_outline,
 )
 
 MM = 1e-3
@@ -101,14 +101,14 @@ def test_plot_format_from_the_extension():
         plot_format("b.pdf")
 
 
-def test_nice_length_and_stadium():
+def test_nice_length_and_bar_outline():
     assert nice_length(47.0) == 5.0
     assert nice_length(100.0) == 20.0
     assert nice_length(0.3) == 0.05
-    outline = stadium((0.0, 0.0), (10.0, 0.0), 2.0)
-    assert outline[:, 0].min() == pytest.approx(-1.0)
-    assert outline[:, 0].max() == pytest.approx(11.0)
-    assert np.abs(outline[:, 1]).max() == pytest.approx(1.0)
+    outline = bar_outline((0.0, 0.0), (10.0, 0.0), 2.0)
+    np.testing.assert_allclose(outline, [[0, -1], [10, -1], [10, 1], [0, 1]], atol=1e-12)
+    outline = bar_outline((1.0, 1.0), (1.0, 4.0), 0.5)
+    np.testing.assert_allclose(outline, [[1.25, 1], [1.25, 4], [0.75, 4], [0.75, 1]], atol=1e-12)
 
 
 def _svg_ids(data: bytes) -> list[str]:
