@@ -28,11 +28,11 @@ from geometry.model import (
 )
 from parasite.plot import (
     PlotDependencyError,
+    bar_outline,
     board_figure,
     nice_length,
     plot_bytes,
     plot_format,
-    bar_outline,
 )
 
 MM = 1e-3
