@@ -184,18 +184,30 @@ def branch_currents(
         i_p[tree] = lu.solve(x)
     if len(chords) == 0:
         return i_p
-    # Fundamental cycles: chord k plus the tree currents that close it.
-    B = np.zeros((n, len(chords)))
-    B[chords, np.arange(len(chords))] = 1.0
+    # Fundamental cycles: chord k plus the tree branches that close it. The
+    # entries are 0, +1 or -1 (a tree path); rounding makes them exact, and the
+    # sparse form keeps the products below at nnz(B) * n instead of n^2 * c.
+    c = len(chords)
+    rows = [chords]
+    cols = [np.arange(c)]
+    vals = [np.ones(c)]
     if A_tree.shape[0]:
-        B[tree] = -lu.solve(A[:, chords].toarray())
+        path = -np.rint(lu.solve(A[:, chords].toarray()))
+        r, k = np.nonzero(path)
+        rows.append(np.flatnonzero(tree)[r])
+        cols.append(k)
+        vals.append(path[r, k])
+    B = sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                      shape=(n, c))
+    BtR = (B.T @ sp.diags(R)).tocsr()
+    mesh_r = (BtR @ B).toarray()
+    rhs_r = BtR @ i_p
     if omega == 0.0:
-        mesh_dc = B.T @ (R[:, None] * B)
-        return i_p + B @ np.linalg.solve(mesh_dc, -(B.T @ (R * i_p)))
-    Zb = 1j * omega * L
-    Zb[np.diag_indices(n)] += R
-    mesh = B.T @ (Zb @ B)
-    return i_p + B @ np.linalg.solve(mesh, -(B.T @ (Zb @ i_p)))
+        return np.asarray(i_p + B @ np.linalg.solve(mesh_r, -rhs_r))
+    BtL = np.asarray(B.T @ L)  # (c, n) dense
+    mesh = mesh_r + 1j * omega * np.asarray((B.T @ BtL.T).T)
+    rhs = rhs_r + 1j * omega * (BtL @ i_p)
+    return np.asarray(i_p + B @ np.linalg.solve(mesh, -rhs))
 
 
 @dataclass(frozen=True)
