@@ -49,7 +49,7 @@ measurement before relying on them.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, Protocol
 
@@ -475,35 +475,42 @@ def engineering(value: float, unit: str, digits: int = 3) -> str:
     return f"{value / scale:.{digits}g} {prefix}{unit}"
 
 
-def _status(r: LoopResult) -> str:
-    if r.within_limit is None:
-        return "no limit"
-    return "ok" if r.within_limit else "OVER"
+def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:
+    """Table cells of one loop, from a :class:`LoopResult` or its JSON dict."""
+    if isinstance(r, LoopResult):
+        name, value, res, freq = r.name, r.inductance, r.resistance, r.frequency
+        limit, within = r.limit, r.within_limit
+        first = r.contributors[0] if r.contributors else None
+    else:
+        name, value, res, freq = r["name"], r["inductance"], r["resistance"], r["frequency"]
+        limit, within = r.get("limit"), r.get("within_limit")
+        c = r.get("contributors") or []
+        first = (c[0]["segment"], c[0]["inductance"]) if c else None
+    top = "-"
+    if first is not None and value > 0:
+        top = f"{first[0]} ({100 * first[1] / value:.0f}%)"
+    status = "no limit" if within is None else ("ok" if within else "OVER")
+    return (
+        str(name),
+        engineering(value, "H"),
+        engineering(res, "ohm"),
+        "DC limit" if not freq else engineering(freq, "Hz"),
+        "-" if limit is None else engineering(limit, "H"),
+        status,
+        top,
+    )
 
 
-def format_loop_table(results: Sequence[LoopResult]) -> str:
-    """An aligned text table of loops: value, resistance, frequency of the
+def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]]) -> str:
+    """An aligned text table of loops (from :class:`LoopResult` objects or the
+    dicts of :func:`loop_result_dict`): value, resistance, frequency of the
     current division, limit, status and the largest segment term. Ends with a
     newline; empty string when there are no loops."""
     if not results:
         return ""
     header = ("loop", "inductance", "resistance", "division at", "limit", "status",
               "largest term")
-    rows = [header]
-    for r in results:
-        top = "-"
-        if r.contributors and r.inductance > 0:
-            sid, term = r.contributors[0]
-            top = f"{sid} ({100 * term / r.inductance:.0f}%)"
-        rows.append((
-            r.name,
-            engineering(r.inductance, "H"),
-            engineering(r.resistance, "ohm"),
-            "DC limit" if r.frequency == 0 else engineering(r.frequency, "Hz"),
-            "-" if r.limit is None else engineering(r.limit, "H"),
-            _status(r),
-            top,
-        ))
+    rows = [header] + [_row(r) for r in results]
     numeric = {1, 2, 3, 4}
     widths = [max(len(row[c]) for row in rows) for c in range(len(header))]
     lines = []

@@ -269,3 +269,26 @@ def test_meshed_network_matches_ngspice_ac(seed, frequency):
     w = 2 * math.pi * frequency
     assert sol.inductance == pytest.approx(z.imag / w, rel=1e-6)
     assert sol.resistance == pytest.approx(z.real, rel=1e-6)
+
+
+def test_loop_table_is_aligned_and_reads_results_or_their_dicts():
+    from parasite.loops import LoopResult, engineering, format_loop_table, loop_result_dict
+
+    results = [
+        LoopResult("hot loop", 2.4133e-9, 4.1e-3, 1e8, 2e-9, False,
+                   (("sw.1", 1.2e-9), ("vin.2", 1.2133e-9)), ()),
+        LoopResult("gate", 7e-9, 0.0112, 0.0, None, None, (("g.1", 7e-9),), ()),
+    ]
+    text = format_loop_table(results)
+    assert text == format_loop_table([loop_result_dict(r) for r in results])
+    lines = text.splitlines()
+    assert lines[0].split()[:2] == ["loop", "inductance"]
+    assert lines[1].split() == ["hot", "loop", "2.41", "nH", "4.1", "mohm", "100", "MHz", "2",
+                                "nH", "OVER", "sw.1", "(50%)"]
+    assert "DC limit" in lines[2] and "no limit" in lines[2] and "g.1 (100%)" in lines[2]
+    # Right-aligned numbers: the unit of every inductance ends in the same column.
+    ends = {line.index("H ") for line in lines[1:]}
+    assert len(ends) == 1
+    assert format_loop_table([]) == ""
+    assert engineering(4.7e-12, "F") == "4.7 pF"
+    assert engineering(0.0, "H") == "0 H"
