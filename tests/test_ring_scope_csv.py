@@ -1,0 +1,105 @@
+"""The oscilloscope-export reader over format variants and malformed files.
+
+The variants in fixtures/scope/ (written by fixtures/scope/make_variants.py)
+all hold one invented waveform whose closed form is known: a 12 V step at
+t = 0 responding as a second-order system, f_n = 50 MHz, zeta = 0.1 (K. Ogata,
+*Modern Control Engineering*, 5th ed., 2010, section 5-3, unit-step response
+-- cited from memory), sampled every 1 ns from -100 ns. Each file is checked
+against the closed form to the precision its digits carry.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from parasite.errors import MeasurementError
+from parasite.ring.scope_csv import parse_scope_csv, read_scope_csv
+
+SCOPE = Path(__file__).resolve().parents[1] / "fixtures" / "scope"
+T = np.arange(-100, 300) * 1e-9
+
+
+def wave(t: np.ndarray) -> np.ndarray:
+    zeta, wn = 0.1, 2 * np.pi * 50e6
+    wd = wn * np.sqrt(1 - zeta**2)
+    tau = np.clip(t, 0, None)
+    c = 1 - np.exp(-zeta * wn * tau) * (
+        np.cos(wd * tau) + zeta / np.sqrt(1 - zeta**2) * np.sin(wd * tau)
+    )
+    return np.where(t > 0, 12.0 * c, 0.0)
+
+
+# file, channel names, time offset (s), absolute tolerance of the values (V),
+# whether units were given
+VARIANTS = [
+    ("plain.csv", ["CH1"], 0.0, 1e-5, True),
+    ("scaled_units.csv", ["CH1", "CH2"], 0.0, 1e-6, True),
+    ("settings_header.csv", ["CH1", "CH2"], 0.0, 1e-4, False),
+    ("semicolon_decimal_comma.csv", ["CH1"], 0.0, 1e-5, True),
+    ("units_line.csv", ["1"], 0.0, 1e-5, True),
+    ("index_start_increment.csv", ["CH1"], 0.0, 1e-4, True),
+    ("settings_beside_data.csv", ["ch1"], 0.0, 1e-4, False),
+    ("tab_separated.txt", ["V1"], 0.0, 1e-6, True),
+    ("bare_columns.dat", ["ch1"], 0.0, 1e-5, False),
+    ("time_offset_latin1.csv", ["Voltage"], 1e-6, 1e-5, False),
+]
+
+
+@pytest.mark.parametrize(("name", "channels", "offset", "tol", "has_units"), VARIANTS)
+def test_variant_reads_to_the_waveform(
+    name: str, channels: list[str], offset: float, tol: float, has_units: bool
+) -> None:
+    trace = read_scope_csv(SCOPE / name)
+    assert list(trace.channels) == channels
+    np.testing.assert_allclose(trace.time, T + offset, rtol=0, atol=1e-15 + 1e-6 * 1e-9)
+    label, values = trace.channel()
+    assert label == channels[0]
+    np.testing.assert_allclose(values, wave(T), rtol=0, atol=tol)
+    if len(channels) > 1:
+        np.testing.assert_allclose(trace.channel("2")[1], wave(T) / 2, rtol=0, atol=tol)
+    assert all(u == "V" for u in trace.units.values())
+    if has_units:
+        assert trace.warnings == []
+    else:
+        assert any("assumed" in w for w in trace.warnings)
+
+
+def test_channel_by_name_and_errors() -> None:
+    trace = read_scope_csv(SCOPE / "scaled_units.csv")
+    assert trace.channel("ch2")[0] == "CH2"
+    with pytest.raises(MeasurementError, match=r"scaled_units\.csv: error: no channel 'CH3'.*CH1, CH2"):
+        trace.channel("CH3")
+
+
+def test_milli_amperes_are_amperes() -> None:
+    text = "Time (ns),I (mA)\n" + "".join(f"{i},{2 * i}\n" for i in range(20))
+    trace = parse_scope_csv(text.encode(), name="probe.csv")
+    assert trace.units == {"I": "A"}
+    np.testing.assert_allclose(trace.time, np.arange(20) * 1e-9)
+    np.testing.assert_allclose(trace.channels["I"], np.arange(20) * 2e-3)
+
+
+MALFORMED = [
+    ("empty.csv", r"empty\.csv: error: the file is empty"),
+    ("text_only.csv", r"text_only\.csv:2: error: no column of numbers at the end of the file"),
+    ("one_column.csv", r"one_column\.csv:401: error: only one column of numbers"),
+    ("bad_value.csv", r"bad_value\.csv:152: error: column 2: 'overload' is not a number"),
+    ("cut_short.csv", r"cut_short\.csv:402: error: column 2 is missing"),
+    ("time_backwards.csv", r"time_backwards\.csv:203: error: time does not increase"),
+    ("frequency_axis.csv", r"frequency_axis\.csv:1: error: the time column 'Frequency' has the unit 'Hz'"),
+    ("too_short.csv", r"too_short\.csv:2: error: only 6 samples"),
+]
+
+
+@pytest.mark.parametrize(("name", "message"), MALFORMED)
+def test_malformed_file_gets_a_clear_message(name: str, message: str) -> None:
+    with pytest.raises(MeasurementError, match=message):
+        read_scope_csv(SCOPE / "malformed" / name)
+
+
+def test_missing_file() -> None:
+    with pytest.raises(MeasurementError, match=r"nowhere\.csv: error: cannot read the file"):
+        read_scope_csv(SCOPE / "nowhere.csv")
