@@ -186,6 +186,11 @@ class Netlist:
         """The top-level element ``name`` (any case)."""
         return self._element_of(self._card(name))
 
+    def card_text(self, name: str) -> str:
+        """The card of top-level element ``name`` as ngspice reads it: its lines
+        joined with one space, ``+`` marks and inline comments removed."""
+        return self._card(name).text.text
+
     def terminal_names(self, name: str) -> tuple[str, ...]:
         """Lower-case terminal names of element ``name``, in card order."""
         return self._layout(self._card(name)).terminal_names
