@@ -60,9 +60,10 @@ class Netlist:
     Build one with :func:`read_netlist` or :func:`parse_netlist`.
     """
 
-    def __init__(self, data: bytes, name: str, base_dir: Path) -> None:
+    def __init__(self, data: bytes, name: str, base_dir: Path, file: Path | None = None) -> None:
         self.path = name
         self._base_dir = base_dir
+        self._file = file
         self._lines = split_lines(data)
         self._cache = _FileCache()
         self._parse()
@@ -70,7 +71,7 @@ class Netlist:
     # -- reading -----------------------------------------------------------------------------
 
     def _parse(self) -> None:
-        main = SourceFile(self.path, self._base_dir, self._lines, main=True)
+        main = SourceFile(self.path, self._base_dir, self._lines, main=True, path=self._file)
         result: ReadResult = Reader(self._cache).read(main)
         self._result = result
         self._top: dict[str, ElementCard] = {}
@@ -341,7 +342,11 @@ def read_netlist(path: str | Path) -> Netlist:
         data = p.read_bytes()
     except OSError as exc:
         raise NetlistError(f"cannot read the netlist: {exc.strerror or exc}", file=str(path)) from None
-    return Netlist(data, str(path), p.parent)
+    try:
+        resolved = p.resolve()
+    except (OSError, RuntimeError):
+        resolved = p
+    return Netlist(data, str(path), p.parent, resolved)
 
 
 __all__ = ["ELEMENT_KINDS", "Netlist", "parse_netlist", "read_netlist"]

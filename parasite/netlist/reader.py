@@ -55,6 +55,7 @@ class SourceFile:
     directory: Path
     lines: list[PhysicalLine]
     main: bool = False
+    path: Path | None = None  # resolved path, where the file is one
 
 
 @dataclass(eq=False)
@@ -150,6 +151,8 @@ class Reader:
         self._main_cards: list[Card] = []
 
     def read(self, main: SourceFile) -> ReadResult:
+        if main.path is not None:
+            self._includes.append((main.path, None, main.name))
         self._read_file(main, section=None)
         if self._stack:
             scope = self._stack[-1]
@@ -291,7 +294,7 @@ class Reader:
                 file=src.name,
                 line=line,
             ) from None
-        child = SourceFile(shown_name, path.parent, lines)
+        child = SourceFile(shown_name, path.parent, lines, path=resolved)
         self._includes.append((resolved, section, shown_name))
         try:
             self._read_file(child, section, (src.name, line))
