@@ -290,7 +290,8 @@ class Netlist:
     def append_cards(self, lines: list[str]) -> None:
         """Insert ``lines`` (card text without line ends) before the top-level
         ``.end`` of the main file, or at its end; outside any ``.subckt`` or
-        ``.control`` block; with the file's line ending. The result is read
+        ``.control`` block; with the file's line ending (an empty file gets an
+        empty title line first). The result is read
         again, so cards in error raise :class:`NetlistError` and change nothing."""
         for text in lines:
             if not isinstance(text, str) or "\n" in text or "\r" in text:
@@ -307,6 +308,8 @@ class Netlist:
         saved = [(ln, ln.text, ln.eol, ln.modified) for ln in self._lines]
         before = list(self._lines)
         new = [PhysicalLine.new(text, eol) for text in lines]
+        if not self._lines:  # the first line is always the title: keep an empty one
+            new.insert(0, PhysicalLine.new("", eol))
         if at == len(self._lines) and self._lines and not self._lines[-1].eol:
             self._lines[-1].eol = eol
             self._lines[-1].modified = True
