@@ -1,0 +1,132 @@
+"""``parasite ring``: simulated against measured ringing at a node."""
+
+from __future__ import annotations
+
+import sys
+from typing import Any
+
+import click
+
+from parasite.cli import reports_input_errors
+from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, quiet_opt
+
+
+@click.command()
+@click.argument("netlist", type=click.Path(dir_okay=False))
+@click.argument("routes", type=click.Path(dir_okay=False))
+@click.option("--node", required=True, help="The node whose edges ring (e.g. the switch node).")
+@click.option("--measured", "measured", type=click.Path(dir_okay=False), default=None,
+              help="A measured waveform of the node: an oscilloscope export (CSV and the like).")
+@click.option("--channel", default=None,
+              help="The channel of the measured file to use, by name or number (default: first).")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False), default=None,
+              help="Write a picture (.png or .svg) of the waveforms around each edge.")
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text",
+              show_default=True, help="How the metrics are printed.")
+@click.option("-o", "--output", default="-", show_default=True,
+              help="Where the metrics go: a file, or - for standard output.")
+@click.option("--band", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True),
+              default=0.05, show_default=True,
+              help="Settling band, as a fraction of each edge's step.")
+@click.option("--capacitance", type=SpiceNumber(minimum=0.0), default=None,
+              help="Capacitance that rings with the loop, in F (e.g. 350p); default: from the "
+                   "device models of the switches on the node, at the voltage they block.")
+@click.option("--loop", "loop_name", default=None,
+              help="The routes file's loop to compare the fitted inductance with (default: "
+                   "its first loop).")
+@click.option("--all-edges", is_flag=True, help="Print every simulated edge, not the last of "
+              "each direction.")
+@click.option("--timeout", type=click.FloatRange(min=1.0), default=600.0, show_default=True,
+              help="Stop a simulation after this many seconds.")
+@min_coupling_opt
+@frequency_opt
+@quiet_opt
+@reports_input_errors
+def ring(netlist: str, routes: str, node: str, measured: str | None, channel: str | None,
+         plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
+         loop_name: str | None, all_edges: bool, timeout: float, min_coupling: float | None,
+         frequency: float | None, quiet: bool) -> None:
+    """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
+    measure each switching edge (ring frequency, damping ratio from the
+    logarithmic decrement, peak overshoot, settling time), and compare with a
+    measured waveform. From the measured ring, the series loop inductance and
+    resistance that would produce it, given the capacitance that rings with it.
+
+    CAUTION: probing a live power stage is hazardous (high voltage, stored
+    energy, large currents). Follow local codes and licensed practice. The
+    numbers are estimates, to be confirmed by measurement.
+    """
+    from parasite.outputs import check_output_path, write_output
+    from parasite.ring.analyse import analyse_ring
+    from parasite.ring.report import format_ring_text, ring_json
+
+    inputs = [netlist, routes, measured]
+    check_output_path(output, inputs)
+    if plot_path is not None:
+        from parasite.plot import plot_format
+
+        try:
+            picture = plot_format(plot_path)
+        except ValueError as exc:
+            raise click.BadParameter(str(exc), param_hint="--plot") from None
+        check_output_path(plot_path, inputs + [output])
+    progress = None if quiet else _progress(tran_of(netlist))
+    try:
+        result = analyse_ring(
+            netlist, routes, node, measured_path=measured, channel=channel, band=band,
+            capacitance=capacitance, loop=loop_name, min_coupling=min_coupling,
+            frequency=frequency, timeout=timeout, progress=progress,
+        )
+    finally:
+        if progress is not None:
+            progress.close()
+    for w in result.report["warnings"]:
+        click.echo(f"warning: {w}", err=True)
+    for key, sim in result.report["simulations"].items():
+        for w in sim.get("warnings", []):
+            click.echo(f"{netlist}: ngspice ({key}): {w}", err=True)
+    if plot_path is not None:
+        from parasite.ring.plot import ring_figure
+
+        write_output(plot_path, ring_figure(result, fmt=picture), inputs)
+    if fmt == "json":
+        text = ring_json(result.report)
+    else:
+        text = format_ring_text(result.report, all_edges=all_edges)
+    write_output(output, text.encode(), inputs)
+
+
+def tran_of(netlist: str) -> float | None:
+    from parasite.ring.analyse import tran_stop
+
+    try:
+        with open(netlist, "rb") as fh:
+            return tran_stop(fh.read())
+    except OSError:
+        return None
+
+
+class _progress:
+    """Simulated time against the ``.tran`` stop time, on standard error when it
+    is a terminal and the run takes more than a second."""
+
+    def __init__(self, stop: float | None) -> None:
+        from parasite.progress import progress_reporter
+
+        self.stop = stop
+        self.line: Any = progress_reporter(False, sys.stderr, label="simulated ns")
+        self.stage = ""
+
+    def __call__(self, stage: str, t: float) -> None:
+        if self.line is None:
+            return
+        if stage != self.stage:
+            self.line.close()
+            self.line.label = f"{stage}: simulated ns"
+            self.stage = stage
+        total = int(round(self.stop * 1e9)) if self.stop else 0
+        self.line(int(t * 1e9), total)
+
+    def close(self) -> None:
+        if self.line is not None:
+            self.line.close()

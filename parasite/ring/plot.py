@@ -1,0 +1,93 @@
+"""Measured, ideal and augmented waveforms overlaid around each edge, with the
+ring metrics written beside them (``parasite ring --plot``)."""
+
+from __future__ import annotations
+
+import io
+from typing import Any
+
+import numpy as np
+
+from parasite.ring.analyse import RingResult, Waveform
+from parasite.ring.metrics import RingMetrics
+
+COLORS = {"ideal": "#7f7f7f", "augmented": "#1f77b4", "measured": "#d62728"}
+
+
+def _window(edges: list[RingMetrics], ref: RingMetrics) -> tuple[float, float]:
+    """From shortly before the edge to after its ring (or the next edge)."""
+    later = [m.edge_time for m in edges if m.edge_time > ref.edge_time]
+    gap = (later[0] - ref.edge_time) if later else None
+    ring = 12.0 / ref.frequency if ref.frequency else None
+    settle = 2.0 * ref.settling_time if ref.settling_time else None
+    span = max(x for x in (ring, settle, 20e-9) if x is not None)
+    if gap is not None:
+        span = min(span, 0.9 * gap)
+    return ref.edge_time - 0.15 * span, ref.edge_time + span
+
+
+def _text(label: str, m: RingMetrics | None) -> str:
+    if m is None:
+        return f"{label}: no edge"
+    f = "-" if m.frequency is None else f"{m.frequency / 1e6:.1f} MHz"
+    z = "-" if m.damping_ratio is None else f"{m.damping_ratio:.3f}"
+    s = "-" if m.settling_time is None else f"{m.settling_time * 1e9:.1f} ns"
+    return f"{label}: ring {f}, damping {z}, overshoot {m.overshoot:.1f} V, settling {s}"
+
+
+def ring_figure(result: RingResult, *, fmt: str = "png") -> bytes:
+    """The picture (PNG or SVG bytes): one panel per edge direction, the last
+    simulated edge of that direction with the measured edge lined up on it."""
+    from parasite.plot import DPI, require_matplotlib
+
+    require_matplotlib()
+    from matplotlib.figure import Figure
+
+    metrics = result.metrics
+    base = metrics.get("augmented") or metrics["ideal"]
+    directions = [d for d in (1, -1) if any(m.direction == d for m in base)]
+    fig = Figure(figsize=(9.0, 3.6 * max(len(directions), 1)), dpi=DPI)
+    axes: list[Any] = [fig.add_subplot(len(directions) or 1, 1, i + 1)
+                       for i in range(max(len(directions), 1))]
+    for ax, d in zip(axes, directions, strict=False):
+        ref = [m for m in base if m.direction == d][-1]
+        t0, t1 = _window(base, ref)
+        notes = []
+        for key, wave in (("ideal", result.ideal), ("augmented", result.augmented),
+                          ("measured", result.measured)):
+            if wave is None:
+                continue
+            edges = metrics.get(key, [])
+            same = [m for m in edges if m.direction == d]
+            m = same[0] if key == "measured" and same else (same[-1] if same else None)
+            shift = wave.shift
+            if key == "measured" and m is not None:
+                shift = ref.edge_time - m.edge_time
+            _draw(ax, wave, shift, t0, t1, ref.edge_time, COLORS[key])
+            notes.append(_text(wave.label, m))
+        ax.set_title(f"{'rising' if d > 0 else 'falling'} edge", fontsize=10, loc="left")
+        ax.set_xlabel("time from the edge (ns)")
+        ax.set_ylabel("voltage (V)")
+        ax.grid(True, alpha=0.3)
+        ax.legend(loc="upper right", fontsize=8)
+        ax.text(0.01, 0.02, "\n".join(notes), transform=ax.transAxes, fontsize=7,
+                va="bottom", ha="left", family="monospace",
+                bbox={"boxstyle": "round", "facecolor": "white", "alpha": 0.85, "lw": 0.5})
+    fig.suptitle("Switch-node ringing: estimates, to be confirmed by measurement", fontsize=10)
+    fig.tight_layout()
+    buf = io.BytesIO()
+    if fmt == "svg":
+        fig.savefig(buf, format="svg", metadata={"Date": None})
+    else:
+        fig.savefig(buf, format="png", dpi=DPI, metadata={"Software": None})
+    return buf.getvalue()
+
+
+def _draw(ax: Any, wave: Waveform, shift: float, t0: float, t1: float, t_ref: float,
+          color: str) -> None:
+    t = wave.time + shift
+    keep = (t >= t0) & (t <= t1)
+    if not np.any(keep):
+        return
+    lw = 0.8 if "measured" in wave.label else 1.3
+    ax.plot((t[keep] - t_ref) * 1e9, wave.value[keep], color=color, lw=lw, label=wave.label)

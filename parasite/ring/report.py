@@ -1,0 +1,121 @@
+"""The ``parasite ring`` report as aligned text, and as JSON (same data)."""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+_METRIC_ROWS = [
+    # key, label, scale, unit, digits
+    ("frequency", "ring frequency", 1e-6, "MHz", 2),
+    ("damping_ratio", "damping ratio", 1.0, "", 3),
+    ("overshoot", "peak overshoot", 1.0, "V", 2),
+    ("overshoot_ratio", "overshoot / step", 100.0, "%", 1),
+    ("settling_time", "settling time", 1e9, "ns", 1),
+    ("step", "step", 1.0, "V", 2),
+]
+
+
+def ring_json(report: dict[str, Any]) -> str:
+    """The report as JSON text (sorted keys off: the order is the document's)."""
+    return json.dumps(report, indent=2, allow_nan=False) + "\n"
+
+
+def _num(x: float | None, scale: float = 1.0, digits: int = 3) -> str:
+    if x is None:
+        return "-"
+    return f"{x * scale:.{digits}f}"
+
+
+def _table(header: list[str], rows: list[list[str]], right: set[int]) -> list[str]:
+    widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header))]
+
+    def fmt(r: list[str]) -> str:
+        cells = [c.rjust(w) if i in right else c.ljust(w) for i, (c, w) in
+                 enumerate(zip(r, widths, strict=True))]
+        return "  ".join(cells).rstrip()
+
+    return [fmt(header), *(fmt(r) for r in rows)]
+
+
+def _edge_rows(source: str, edges: list[dict[str, Any]], all_edges: bool) -> list[list[str]]:
+    picked = list(enumerate(edges, 1))
+    if not all_edges:
+        last: dict[str, tuple[int, dict[str, Any]]] = {}
+        for i, e in picked:
+            last[e["direction"]] = (i, e)
+        picked = sorted(last.values(), key=lambda p: p[0])
+    rows = []
+    for i, e in picked:
+        rows.append([
+            source, str(i), e["direction"], _num(e["edge_time"], 1e6, 4),
+            _num(e["frequency"], 1e-6, 2), _num(e["damping_ratio"], 1.0, 3),
+            _num(e["overshoot"], 1.0, 2), _num(e["settling_time"], 1e9, 1),
+        ])
+    return rows
+
+
+def format_ring_text(report: dict[str, Any], *, all_edges: bool = False) -> str:
+    """Aligned tables: the edges of each waveform, the measured-against-simulated
+    comparison, and the loop fit."""
+    band = 100 * report["settling_band_fraction"]
+    out = [f"Ringing at node {report['node']} (settling band +-{band:g} % of each step)"]
+    header = ["waveform", "edge", "direction", "time (us)", "ring (MHz)", "damping",
+              "overshoot (V)", "settling (ns)"]
+    rows: list[list[str]] = []
+    sims = report["simulations"]
+    for key in ("ideal", "augmented"):
+        if key in sims:
+            rows += _edge_rows(key, sims[key]["edges"], all_edges)
+    if report.get("measured"):
+        rows += _edge_rows("measured", report["measured"]["edges"], True)
+    out += [""] + _table(header, rows, right={1, 3, 4, 5, 6, 7})
+    if not all_edges:
+        counts = ", ".join(f"{k} {len(v['edges'])}" for k, v in sims.items())
+        out.append(f"(simulated edges: {counts}; the last of each direction shown, all of them "
+                   "with --all-edges or --format json)")
+    for comp in report.get("comparison", []):
+        offset = comp["time_offset"]
+        shift = "" if offset is None else f", shifted by {offset * 1e6:+.4f} us to line up"
+        out += ["", f"Measured edge {comp['measured_edge']} ({comp['direction']}) against the "
+                    f"last simulated {comp['direction']} edge{shift}:"]
+        crows = []
+        for key, label, scale, unit, digits in _METRIC_ROWS:
+            r = comp["metrics"][key]
+            diff = _num(r["difference"], scale, digits)
+            if r["difference"] is not None and not diff.startswith("-"):
+                diff = "+" + diff
+            rel = r["relative_difference"]
+            crows.append([
+                label + (f" ({unit})" if unit else ""),
+                _num(r["ideal"], scale, digits), _num(r["augmented"], scale, digits),
+                _num(r["measured"], scale, digits), diff,
+                "-" if rel is None else f"{100 * rel:+.1f} %",
+            ])
+        out += _table(["metric", "ideal", "augmented", "measured", "augm. - meas.", "relative"],
+                      crows, right={1, 2, 3, 4, 5})
+    fits = report.get("fit", [])
+    if fits:
+        loop = report.get("loop")
+        out += ["", "Series RLC loop that rings this way (L = 1/(w0^2 C), R = 2 zeta w0 L):"]
+        frows = []
+        for f in fits:
+            src = f["capacitance_from"]
+            cfrom = "given" if src == "given" else " + ".join(
+                f"{d['device']} at {d['voltage']:.1f} V" for d in src)
+            diff = f["inductance_difference"]
+            frows.append([
+                f["source"], f["direction"], _num(f["frequency"], 1e-6, 2),
+                _num(f["damping_ratio"], 1.0, 3), _num(f["capacitance"], 1e12, 0) + " pF",
+                cfrom, _num(f["inductance"], 1e9, 2), _num(f["resistance"], 1e3, 1),
+                "-" if diff is None else f"{100 * diff:+.1f} %",
+            ])
+        lname = f"vs loop {loop['name']!r}" if loop else "vs loop"
+        out += _table(["ring of", "edge", "ring (MHz)", "damping", "C", "C from", "L (nH)",
+                       "R (mOhm)", lname], frows, right={2, 3, 4, 6, 7, 8})
+        if loop:
+            out.append(f"(loop {loop['name']!r} from the routes file: "
+                       f"L = {loop['inductance'] * 1e9:.2f} nH, "
+                       f"R = {loop['resistance'] * 1e3:.2f} mOhm)")
+    out += [""] + [f"Caution: {c}" for c in report["cautions"]]
+    return "\n".join(out) + "\n"
