@@ -14,16 +14,22 @@ from parasite.ring.metrics import RingMetrics
 COLORS = {"ideal": "#7f7f7f", "augmented": "#1f77b4", "measured": "#d62728"}
 
 
-def _window(edges: list[RingMetrics], ref: RingMetrics) -> tuple[float, float]:
-    """From shortly before the edge to after its ring (or the next edge)."""
+def _window(edges: list[RingMetrics], ref: RingMetrics,
+            others: list[RingMetrics]) -> tuple[float, float]:
+    """From shortly before the edge to after the longest ring of ``ref`` and
+    ``others`` (the same edge in the other waveforms), within the next edge."""
     later = [m.edge_time for m in edges if m.edge_time > ref.edge_time]
     gap = (later[0] - ref.edge_time) if later else None
-    ring = 12.0 / ref.frequency if ref.frequency else None
-    settle = 2.0 * ref.settling_time if ref.settling_time else None
-    span = max(x for x in (ring, settle, 20e-9) if x is not None)
+    spans = [20e-9]
+    for m in [ref, *others]:
+        if m.frequency:
+            spans.append(10.0 / m.frequency)
+        if m.settling_time:
+            spans.append(1.5 * m.settling_time)
+    span = max(spans)
     if gap is not None:
         span = min(span, 0.9 * gap)
-    return ref.edge_time - 0.15 * span, ref.edge_time + span
+    return ref.edge_time - 0.1 * span, ref.edge_time + span
 
 
 def _text(label: str, m: RingMetrics | None) -> str:
@@ -46,12 +52,17 @@ def ring_figure(result: RingResult, *, fmt: str = "png") -> bytes:
     metrics = result.metrics
     base = metrics.get("augmented") or metrics["ideal"]
     directions = [d for d in (1, -1) if any(m.direction == d for m in base)]
-    fig = Figure(figsize=(9.0, 3.6 * max(len(directions), 1)), dpi=DPI)
+    fig = Figure(figsize=(9.0, 4.2 * max(len(directions), 1)), dpi=DPI)
     axes: list[Any] = [fig.add_subplot(len(directions) or 1, 1, i + 1)
                        for i in range(max(len(directions), 1))]
     for ax, d in zip(axes, directions, strict=False):
         ref = [m for m in base if m.direction == d][-1]
-        t0, t1 = _window(base, ref)
+        others = []
+        for key in ("ideal", "augmented", "measured"):
+            same = [m for m in metrics.get(key, []) if m.direction == d]
+            if same:
+                others.append(same[0] if key == "measured" else same[-1])
+        t0, t1 = _window(base, ref, others)
         notes = []
         for key, wave in (("ideal", result.ideal), ("augmented", result.augmented),
                           ("measured", result.measured)):
@@ -70,9 +81,8 @@ def ring_figure(result: RingResult, *, fmt: str = "png") -> bytes:
         ax.set_ylabel("voltage (V)")
         ax.grid(True, alpha=0.3)
         ax.legend(loc="upper right", fontsize=8)
-        ax.text(0.01, 0.02, "\n".join(notes), transform=ax.transAxes, fontsize=7,
-                va="bottom", ha="left", family="monospace",
-                bbox={"boxstyle": "round", "facecolor": "white", "alpha": 0.85, "lw": 0.5})
+        ax.text(0.0, -0.2, "\n".join(notes), transform=ax.transAxes, fontsize=7,
+                va="top", ha="left", family="monospace")
     fig.suptitle("Switch-node ringing: estimates, to be confirmed by measurement", fontsize=10)
     fig.tight_layout()
     buf = io.BytesIO()
