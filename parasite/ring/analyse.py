@@ -177,6 +177,17 @@ def analyse_ring(
             file=netlist_path,
         )
     node_key = node.strip().lower()
+    trace = None
+    if measured_path is not None:  # read it first: a bad file fails before the simulations
+        from parasite.ring.scope_csv import read_scope_csv
+
+        trace = read_scope_csv(measured_path)
+        label, values = trace.channel(channel)
+        if trace.units.get(label) != "V":
+            raise MeasurementError(
+                f"channel {label!r} is in {trace.units.get(label)}; ring compares voltages",
+                file=measured_path,
+            )
 
     def stage(label: str) -> Callable[[float], None] | None:
         if progress is None:
@@ -275,16 +286,7 @@ def analyse_ring(
         return entry
 
     measured_wave: Waveform | None = None
-    if measured_path is not None:
-        from parasite.ring.scope_csv import read_scope_csv
-
-        trace = read_scope_csv(measured_path)
-        label, values = trace.channel(channel)
-        if trace.units.get(label) != "V":
-            raise MeasurementError(
-                f"channel {label!r} is in {trace.units.get(label)}; ring compares voltages",
-                file=measured_path,
-            )
+    if measured_path is not None and trace is not None:
         meas_edges = ring_metrics(trace.time, values, band=band,
                                   name=f"{measured_path}, channel {label}")
         metrics["measured"] = meas_edges
