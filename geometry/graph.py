@@ -14,8 +14,10 @@ Rules (``snap`` is the routes file's tolerance, in metres):
 * Vias: a via spans the layers between its ``from`` and ``to`` layers
   (inclusive, by height). It joins its two end layers always, and an inner
   layer where that layer has copper of its net at ``at``: a trace whose
-  centre line passes within half its width of ``at`` (split at the nearest
-  centre-line point), a pin of the net within the barrel's radius (or
+  centre line passes within half its width of ``at`` (the nearest such
+  trace, split at the nearest centre-line point: one node per via and layer,
+  so a second trace of the net under the same pad joins only where it meets
+  the first), a pin of the net within the barrel's radius (or
   ``snap``), another via of the net joined there, or the net's plane. One
   vertical segment runs between each consecutive pair of joined layers, from
   mid-plane to mid-plane, oriented from ``from`` toward ``to``. The barrel
@@ -25,8 +27,9 @@ Rules (``snap`` is the routes file's tolerance, in metres):
   node when within the barrel's radius (or ``snap``) of ``at``, else the
   nearest centre-line point of a trace within half its width (a vertex, or a
   split of the piece). On a plane layer of its net it is on the plane node.
-* Planes: one node per plane layer (``Node.plane``); vias of the plane's net
-  end on it. ``SegmentArrays.mirror_z`` is the face of the nearest plane
+* Planes: one node per plane layer (``Node.plane``; its point is where the
+  first via or pin joins it, at the layer's mid-plane, else x = y = 0); vias
+  of the plane's net end on it. ``SegmentArrays.mirror_z`` is the face of the nearest plane
   toward each segment (a segment is never imaged in a plane it crosses or
   touches); NaN without a plane.
 * Errors (:class:`RoutesError`): a pin on no copper of its net (naming the
@@ -201,6 +204,7 @@ class _Builder:
         self.P = P
         n_pieces = len(P.ax)
         length = P.length
+        self.length = length
         splits: list[list[Point2]] = [[] for _ in range(n_pieces)]
         self.splits = splits
 
@@ -278,14 +282,16 @@ class _Builder:
         self.nodes = nodes
         self.plane_nodes: dict[str, int] = {}
         segs: list[dict[str, object]] = []
+        pax, pay, pbx, pby = P.ax.tolist(), P.ay.tolist(), P.bx.tolist(), P.by.tolist()
+        plen = length.tolist()
+        pc = -1
         for t in r.traces:
             layer = r.layers[t.layer]
-            first = int(np.searchsorted(P.trace, t.index))
-            for k in range(len(t.points) - 1):
-                pc = first + k
-                ax, ay, bx, by = P.ax[pc], P.ay[pc], P.bx[pc], P.by[pc]
-                L = float(length[pc])
-                pts: list[Point2] = [(float(ax), float(ay))]
+            for _k in range(len(t.points) - 1):
+                pc += 1
+                ax, ay, bx, by = pax[pc], pay[pc], pbx[pc], pby[pc]
+                L = plen[pc]
+                pts: list[Point2] = [(ax, ay)]
                 ts = []
                 for sx, sy in splits[pc]:
                     tt = ((sx - ax) * (bx - ax) + (sy - ay) * (by - ay)) / (L * L)
@@ -296,7 +302,7 @@ class _Builder:
                         continue
                     pts.append((sx, sy))
                     last = s_len
-                pts.append((float(bx), float(by)))
+                pts.append((bx, by))
                 ids = [nodes.at(t.net, layer, x, y) for x, y in pts]
                 for n0, n1 in zip(ids[:-1], ids[1:], strict=True):
                     if n0 == n1:
@@ -440,7 +446,7 @@ class _Builder:
     def join_piece(self, pc: int, t: float) -> Point2:
         """The node point on piece ``pc`` at parameter ``t`` (an end, or a split)."""
         P = self.P
-        L = float(self.P.length[pc])
+        L = float(self.length[pc])
         if t * L <= self.snap:
             return (float(P.ax[pc]), float(P.ay[pc]))
         if t * L >= L - self.snap:
@@ -673,29 +679,32 @@ class _Builder:
         # islands: connected copper of a net that holds no pin
         with_pin = {find(pn.node) for pn in pins}
         reported: set[int] = set()
+        nodes_of: dict[str, list[int]] = {}
+        for n in nodes:
+            nodes_of.setdefault(n.net, []).append(n.id)
+        sources_of: dict[str, dict[str, None]] = {}
+        for s in segments:
+            sources_of.setdefault(s.net, {})[s.source] = None
         for net in self.nets:
             if net not in pins_of:
-                reported.update(find(n.id) for n in nodes if n.net == net)
-                srcs = sorted({s.source for s in segments if s.net == net},
-                              key=_source_order)
+                reported.update(find(n) for n in nodes_of.get(net, []))
+                srcs = sorted(sources_of.get(net, {}), key=_source_order)
                 if not srcs:  # only a return plane: it still images the copper
                     continue
                 self.warn(srcs[0], self.line_of(srcs[0]),
-                          f"net {net!r} has copper ({', '.join(srcs)}) but no pin: it is not "
+                          f"net {net!r} has copper ({_listing(srcs)}) but no pin: it is not "
                           f"connected to the circuit")
-        groups: dict[int, list[str]] = {}
+        groups: dict[int, dict[str, None]] = {}
         for s in segments:
             root = find(s.node_from)
             if root in with_pin or root in reported:
                 continue
-            lst = groups.setdefault(root, [])
-            if s.source not in lst:
-                lst.append(s.source)
-        for root, srcs in groups.items():
+            groups.setdefault(root, {})[s.source] = None
+        for root, group in groups.items():
             net = nodes[root].net
-            first = srcs[0]
-            self.warn(first, self.line_of(first),
-                      f"copper island of net {net!r} ({', '.join(srcs)}) is connected to no pin; "
+            srcs = list(group)
+            self.warn(srcs[0], self.line_of(srcs[0]),
+                      f"copper island of net {net!r} ({_listing(srcs)}) is connected to no pin; "
                       f"it carries no current from the circuit")
         return anchors
 
@@ -773,6 +782,12 @@ class _Builder:
 
 def _kind(k: object) -> SegmentKind:
     return "trace" if k == "trace" else "via"
+
+
+def _listing(items: list[str], most: int = 6) -> str:
+    if len(items) <= most:
+        return ", ".join(items)
+    return ", ".join(items[:most]) + f" and {len(items) - most} more"
 
 
 def _source_order(src: str) -> tuple[int, int]:
