@@ -323,3 +323,93 @@ def test_demo_board() -> None:
     top = np.array([s.layer == "top" for s in g.segments])
     np.testing.assert_allclose(g.arrays.mirror_z[top], 1.235 * MM, rtol=1e-12)
     assert 20 <= len(g.segments) <= 60
+
+
+STACK = """format = "parasite-routes/1"
+units = "mm"
+[layers.top]
+z = 1.5
+thickness = 0.05
+[layers.mid]
+z = 0.8
+thickness = 0.05
+[layers.bottom]
+z = 0
+thickness = 0.05
+"""
+
+
+def _board(extra: str, nets: list[str]) -> CopperGraph:
+    return build_graph(parse_routes((STACK + extra).encode(), "s.routes.toml", "toml"), nets)
+
+
+def test_stacked_vias_and_a_pin_on_a_via_pad() -> None:
+    """via[0] top->bottom passes mid, where via[1] (mid->bottom, same place)
+    ends: via[0] joins mid there. The pin 0.1 mm from the barrel's axis (radius
+    0.2 mm) on bottom, where there is no trace, is on the via's node."""
+    g = _board("""[[trace]]
+net = "a"
+layer = "top"
+width = 1
+points = [[0, 0], [5, 0]]
+[[via]]
+net = "a"
+at = [5, 0]
+from = "top"
+to = "bottom"
+diameter = 0.4
+[[via]]
+net = "a"
+at = [5, 0]
+from = "mid"
+to = "bottom"
+diameter = 0.4
+[[pin]]
+terminal = "R1:1"
+at = [0, 0]
+layer = "top"
+[[pin]]
+terminal = "R2:1"
+at = [5.1, 0]
+layer = "bottom"
+""", ["a", "a"])
+    v0 = [s.layer for s in g.segments if s.source == "via[0]"]
+    assert v0 == ["top-mid", "mid-bottom"]
+    (v1,) = [s for s in g.segments if s.source == "via[1]"]
+    bottom_node = g.pins[1].node
+    assert g.nodes[bottom_node].layer == "bottom" and v1.node_to == bottom_node
+    assert g.nodes[bottom_node].point[:2] == pytest.approx((5 * MM, 0.0))
+    assert g.warnings == ()
+
+
+def test_barrel_through_another_nets_copper_warns() -> None:
+    """A via of net b at (3, 0) passes through net a's 1 mm trace on top."""
+    g = _board("""[[trace]]
+net = "a"
+layer = "top"
+width = 1
+points = [[0, 0], [5, 0]]
+[[trace]]
+net = "b"
+layer = "bottom"
+width = 1
+points = [[3, 0], [3, 5]]
+[[via]]
+net = "b"
+at = [3, 0]
+from = "bottom"
+to = "top"
+diameter = 0.3
+[[pin]]
+terminal = "R1:1"
+at = [0, 0]
+layer = "top"
+[[pin]]
+terminal = "R1:2"
+at = [3, 5]
+layer = "bottom"
+""", ["a", "b"])
+    (w,) = g.warnings
+    assert "via[0]: the barrel of net 'b' overlaps copper of net 'a' (trace[0]) on layer 'top'" in w
+    # the via is not joined to net a's trace: that trace stays one 5 mm segment
+    assert [round(s.length / MM, 9) for s in g.segments if s.net == "a"] == [5.0]
