@@ -269,8 +269,10 @@ class Reader:
         shown_name = str(path)
         try:
             resolved = path.resolve()
-        except (OSError, RuntimeError):
-            resolved = path
+            is_file = path.is_file()
+            exists = is_file or path.exists()
+        except (OSError, RuntimeError, ValueError):
+            resolved, is_file, exists = path, False, False
         key = (resolved, section)
         chain = [n for (p, s, n) in self._includes]
         if any((p, s) == key for (p, s, _) in self._includes):
@@ -279,18 +281,20 @@ class Reader:
                 file=src.name,
                 line=line,
             )
-        if not path.is_file():
+        if not is_file:
+            what = "is not a regular file" if exists else "not found"
             raise NetlistError(
-                f"{card.keyword} file {name!r} not found (looked for {shown_name!r}, relative "
+                f"{card.keyword} file {name!r} {what} (looked for {shown_name!r}, relative "
                 f"to the folder of the including file)",
                 file=src.name,
                 line=line,
             )
         try:
             lines = self._load(resolved)
-        except OSError as exc:
+        except (OSError, ValueError) as exc:
+            reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
             raise NetlistError(
-                f"cannot read {card.keyword} file {shown_name!r}: {exc.strerror or exc}",
+                f"cannot read {card.keyword} file {shown_name!r}: {reason}",
                 file=src.name,
                 line=line,
             ) from None
