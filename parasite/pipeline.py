@@ -52,11 +52,12 @@ def load_inputs(netlist_path: str, routes_path: str) -> Inputs:
     copper graph."""
     from geometry.graph import build_graph
     from geometry.routes import load_routes
-    from parasite.pins import resolve_pin_nets
+    from parasite.pins import resolve_pins
 
     netlist = read_netlist_arg(netlist_path)
     routes = load_routes(routes_path)
-    graph = build_graph(routes, resolve_pin_nets(routes, netlist))
+    pins = resolve_pins(routes, netlist)
+    graph = build_graph(routes, pins.nets, anchor_pins=pins.anchor_pins)
     return Inputs(netlist, routes, graph, netlist_path, routes_path)
 
 
