@@ -238,7 +238,9 @@ def _fmt(draw: st.DrawFn, fields: list[str]) -> str:
     out = fields[0]
     for f in fields[1:]:
         if draw(st.integers(0, 3)) == 0:
-            out += draw(st.sampled_from(["\n+ ", "\n* note\n+", "\n\n  +\t"])) + f
+            out += draw(st.sampled_from(
+                ["\n+ ", "\n* note\n+", "\n\n  +\t", " \\\\\n", "\\\\\n\n\t"]
+            )) + f
         else:
             out += draw(blank) + f
     if draw(st.booleans()):

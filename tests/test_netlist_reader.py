@@ -98,6 +98,12 @@ def test_continuation_lines_with_comments_and_blanks_between() -> None:
     assert net.element("R1").line == 2
 
 
+def test_backslash_glue_skips_blank_lines() -> None:
+    """ngspice -b (listing e): "R1 a \\\\", a blank line, then "b 1k" reads
+    "r1 a b 1k"."""
+    assert nodes("t\nR1 a \\\\\n\n  \nb 1k\n") == {"R1": ("a", "b")}
+
+
 def test_fields_split_at_commas_and_parentheses() -> None:
     """ngspice -b: "R1 a,0 1k" and "R2 (a b) 1k" both read two nodes."""
     assert nodes("t\nR1 a,0 1k\nR2 (a b) 1k\n") == {"R1": ("a", "0"), "R2": ("a", "b")}

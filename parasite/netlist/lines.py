@@ -14,7 +14,8 @@ them (each rule checked with ``ngspice -b`` and its ``listing e`` command, see
   (ngspice warns "unusual leading characters" and replaces it with ``*``);
 * ``+`` first continues the previous card; comment and blank lines may sit in
   between. A line whose content ends in ``\\\\`` (two backslashes, trailing blanks
-  allowed) is continued by the whole next line;
+  allowed) is continued by the whole next line that is not blank (a comment
+  line there is glued on as text, as ngspice does);
 * inline comments: ``;`` anywhere, ``//`` anywhere, ``$`` when it follows a
   space, tab or comma;
 * ``.control`` ... ``.endc`` is one block of commands, kept as it is.
@@ -172,6 +173,8 @@ def group_cards(lines: list[PhysicalLine], *, title: bool) -> tuple[list[Card], 
                 control = None
             continue
         if glue_next and current is not None:
+            if not text.strip(BLANKS):
+                continue  # ngspice -b: blank lines between are skipped
             end, glue_next = _strip_backslashes(text, 0, content_end(text))
             current.segments.append(Segment(idx, 0, end))
             current.last = idx
