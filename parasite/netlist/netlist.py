@@ -179,8 +179,10 @@ class Netlist:
     @property
     def elements(self) -> list[Element]:
         """Top-level element cards (not inside a ``.subckt``), in file order,
-        included files where they are included. Raises :class:`NetlistError` for
-        the first card whose nodes cannot be told."""
+        included files where they are included. Conditions are not evaluated:
+        the cards of every ``.if``/``.else`` branch are listed (a name may then
+        appear once per branch; :meth:`element` gives the first). Raises
+        :class:`NetlistError` for the first card whose nodes cannot be told."""
         return [self._element_of(c) for c in self._result.elements if c.scope is None]
 
     def element(self, name: str) -> Element:
