@@ -83,9 +83,15 @@ def read_raw(data: bytes) -> list[dict[str, np.ndarray]]:
 
 
 def run_deck(deck: bytes, workdir: Path, tmp: Path, timeout: float = 120.0) -> Run:
-    """``ngspice -b -o LOG -r RAW DECK`` with ``workdir`` as working directory
-    (so relative includes resolve as for a netlist kept in ``workdir``)."""
+    """``ngspice -b -o LOG -r RAW DECK`` run in a copy of ``workdir`` (so that
+    relative includes resolve as for a netlist kept in ``workdir``, and files
+    that models write, such as BSIM check logs, stay out of the source tree)."""
     assert NGSPICE is not None
+    if tmp.resolve() not in workdir.resolve().parents and workdir.resolve() != tmp.resolve():
+        copy = tmp / "work"
+        if not copy.exists():
+            shutil.copytree(workdir, copy)
+        workdir = copy
     deck_path = tmp / "deck.cir"
     raw_path = tmp / "out.raw"
     log_path = tmp / "run.log"
