@@ -89,7 +89,7 @@ def choose_couplings(L: np.ndarray, min_coupling: float, *, margin: float = 1e-3
     K = L / np.outer(d, d)
     iu, ju = np.triu_indices(n, 1)
     kv = K[iu, ju]
-    keep = np.abs(kv) >= min_coupling
+    keep = (np.abs(kv) >= min_coupling) & (kv != 0.0)
     nonzero = kv != 0.0
     i, j, k = iu[keep], ju[keep], _round_k(kv[keep])
     self_l = _round_l(diag)
