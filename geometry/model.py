@@ -115,6 +115,66 @@ class NetOptions:
 
 
 @dataclass(frozen=True)
+class Instrument:
+    """The input of the instrument at the end of a probe's leads: a resistance
+    in parallel with a capacitance, between the tip lead's end and the ground
+    lead's end (see :data:`INSTRUMENT_PRESETS`)."""
+
+    resistance: float  # ohm
+    capacitance: float  # F
+    preset: str | None = None  # the preset's name, None when given as values
+
+
+INSTRUMENT_PRESETS: dict[str, Instrument] = {
+    # Passive 10:1 probe on a 1 Mohm oscilloscope input, seen at the tip: 9 Mohm
+    # in the probe plus the 1 Mohm input make 10 Mohm; the tip capacitance of such
+    # probes lies around 8-15 pF. Common practice, values from memory (probe data
+    # sheets): check the probe at hand.
+    "10x": Instrument(resistance=10e6, capacitance=12e-12, preset="10x"),
+    # Passive 1:1 probe: the 1 Mohm oscilloscope input with its own ~15 pF plus
+    # the cable's capacitance, about 50-110 pF in all. Common practice, from memory.
+    "1x": Instrument(resistance=1e6, capacitance=80e-12, preset="1x"),
+}
+"""Instrument presets of the routes file's ``[[probe]] instrument`` key. A
+ground spring is not an instrument: it is a short ground lead (a few mm of wire
+from the ground contact to the probe's barrel), written as ``ground_lead``."""
+
+
+@dataclass(frozen=True)
+class ProbeContact:
+    """Where a probe lead touches copper: a point on a layer (on the layer's
+    top face). ``net`` (optional) is the net the copper there must belong to."""
+
+    layer: str
+    at: Point2  # m
+    net: str | None = None
+
+
+@dataclass(frozen=True)
+class ProbeLead:
+    """A probe lead: a round wire along a polyline in space, from its contact
+    point on the copper to the instrument's input."""
+
+    points: tuple[Point3, ...]  # m; points[0] is the contact point
+    radius: float  # m
+
+
+@dataclass(frozen=True)
+class Probe:
+    """A ``[[probe]]`` entry: two leads and the instrument input between their
+    ends. The reading is V(tip lead's end) - V(ground lead's end)."""
+
+    name: str
+    tip: ProbeContact
+    ground: ProbeContact
+    tip_lead: ProbeLead
+    ground_lead: ProbeLead
+    instrument: Instrument
+    index: int
+    line: int | None = None
+
+
+@dataclass(frozen=True)
 class Routes:
     """The routes file, validated, in SI units."""
 
@@ -128,7 +188,7 @@ class Routes:
     pins: tuple[Pin, ...]
     loops: tuple[LoopSpec, ...]
     nets: dict[str, NetOptions]
-    probes: tuple[object, ...] = ()  # defined by the probes feature
+    probes: tuple[Probe, ...] = ()
 
 
 @dataclass(frozen=True)

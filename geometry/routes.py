@@ -33,13 +33,19 @@ from typing import Any, Literal, NoReturn
 from geometry.errors import RoutesError
 from geometry.locate import KeyPath, LineMap, format_path, json_lines, toml_lines
 from geometry.model import (
+    INSTRUMENT_PRESETS,
     UNIT_SCALE,
     Copper,
+    Instrument,
     Layer,
     LoopSpec,
     NetOptions,
     Pin,
     Point2,
+    Point3,
+    Probe,
+    ProbeContact,
+    ProbeLead,
     Routes,
     Trace,
     Unit,
@@ -284,11 +290,94 @@ def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:
                     line=ctx.lines.line_of(path))
 
 
-def parse_probe_entry(ctx: Context, raw: Any, index: int) -> object:
-    """Hook for the probes feature: it replaces this entry in
-    :data:`ENTRY_PARSERS` with its own parser, returning its probe object
-    (collected into ``Routes.probes``). Until then a probe is an error."""
-    ctx.fail(("probe", index), "[[probe]] entries are not supported by this version of parasite")
+_PROBE_KEYS = ("name", "tip", "ground", "tip_lead", "ground_lead", "instrument")
+_CONTACT_KEYS = ("layer", "at", "net")
+_LEAD_KEYS = ("points", "radius")
+_INSTRUMENT_KEYS = ("resistance", "capacitance")
+_PROBE_NAME = re.compile(r"[A-Za-z0-9_-]+")
+
+
+def _point3(ctx: Context, value: Any, path: KeyPath) -> Point3:
+    what = f"a point in space [x, y, z] in {ctx.units}"
+    if not isinstance(value, list) or len(value) != 3:
+        ctx.fail(path, f"must be {what}; got {_describe(value)}")
+    x, y, z = (ctx.number(c, path + (k,), f"a coordinate in {ctx.units}") * ctx.scale
+               for k, c in enumerate(value))
+    return (x, y, z)
+
+
+def _probe_contact(ctx: Context, raw: Any, path: KeyPath) -> ProbeContact:
+    t = ctx.table(raw, path, _CONTACT_KEYS, ("layer", "at"))
+    layer = ctx.layer(t["layer"], path + ("layer",))
+    at = ctx.point(t["at"], path + ("at",))
+    net = ctx.net(t["net"], path + ("net",)) if "net" in t else None
+    return ProbeContact(layer=layer, at=at, net=net)
+
+
+def _probe_lead(ctx: Context, raw: Any, path: KeyPath, contact: ProbeContact,
+                contact_key: str) -> ProbeLead:
+    t = ctx.table(raw, path, _LEAD_KEYS, _LEAD_KEYS)
+    radius = ctx.length(t["radius"], path + ("radius",), positive=True)
+    pts_raw = ctx.array(t["points"], path + ("points",), f"points [x, y, z] in {ctx.units}")
+    if len(pts_raw) < 2:
+        ctx.fail(path + ("points",), f"must hold at least two points [x, y, z] (from the "
+                                     f"contact to the instrument); got {len(pts_raw)}")
+    points = tuple(_point3(ctx, p, path + ("points", k)) for k, p in enumerate(pts_raw))
+    layer = ctx.layers[contact.layer]
+    start = (contact.at[0], contact.at[1], layer.top)
+    if math.dist(points[0], start) > ctx.snap:
+        shown = ", ".join(f"{c / ctx.scale:.6g}" for c in start)
+        ctx.fail(path + ("points", 0),
+                 f"a lead starts at its contact: the first point must be [{shown}] "
+                 f"({contact_key}.at on the top face of layer {contact.layer!r}); got "
+                 f"{pts_raw[0]!r}")
+    for k in range(1, len(points)):
+        d = math.dist(points[k - 1], points[k])
+        if d < ctx.snap:
+            ctx.fail(path + ("points", k),
+                     f"zero-length segment: point {pts_raw[k]!r} is {ctx.display(d)} from the "
+                     f"previous point {pts_raw[k - 1]!r}; consecutive points must be at least "
+                     f"snap = {ctx.display(ctx.snap)} apart")
+    return ProbeLead(points=points, radius=radius)
+
+
+def _instrument(ctx: Context, raw: Any, path: KeyPath) -> Instrument:
+    presets = ", ".join(repr(k) for k in INSTRUMENT_PRESETS)
+    if isinstance(raw, str):
+        key = raw.strip().lower()
+        if key not in INSTRUMENT_PRESETS:
+            ctx.fail(path, f"unknown instrument {raw!r}; accepted: {presets}, or a table "
+                           f"{{ resistance = OHMS, capacitance = FARADS }}")
+        return INSTRUMENT_PRESETS[key]
+    if not isinstance(raw, dict):
+        ctx.fail(path, f"must be a preset ({presets}) or a table {{ resistance = OHMS, "
+                       f"capacitance = FARADS }}; got {_describe(raw)}")
+    t = ctx.table(raw, path, _INSTRUMENT_KEYS, _INSTRUMENT_KEYS)
+    r = _spice_value(ctx, t["resistance"], path + ("resistance",), "ohm")
+    c = _spice_value(ctx, t["capacitance"], path + ("capacitance",), "F")
+    return Instrument(resistance=r, capacitance=c, preset=None)
+
+
+def parse_probe_entry(ctx: Context, raw: Any, index: int) -> Probe:
+    """A ``[[probe]]`` entry: ``name``; ``tip`` and ``ground`` contacts
+    ``{ layer, at [, net] }`` (on the layer's top face); ``tip_lead`` and
+    ``ground_lead`` ``{ points = [[x, y, z], ...], radius }``, each starting at
+    its contact and ending at the instrument; ``instrument``, a preset name
+    (:data:`geometry.model.INSTRUMENT_PRESETS`) or ``{ resistance, capacitance }``
+    (numbers in ohm and F, or SPICE-style values such as ``"12p"``)."""
+    path: KeyPath = ("probe", index)
+    t = ctx.table(raw, path, _PROBE_KEYS, _PROBE_KEYS)
+    name = ctx.string(t["name"], path + ("name",), "a probe name (letters, digits, '_', '-')")
+    if not _PROBE_NAME.fullmatch(name):
+        ctx.fail(path + ("name",), f"a probe name is letters, digits, '_' and '-' only (it "
+                                   f"names nodes of the netlist); got {name!r}")
+    tip = _probe_contact(ctx, t["tip"], path + ("tip",))
+    ground = _probe_contact(ctx, t["ground"], path + ("ground",))
+    tip_lead = _probe_lead(ctx, t["tip_lead"], path + ("tip_lead",), tip, "tip")
+    ground_lead = _probe_lead(ctx, t["ground_lead"], path + ("ground_lead",), ground, "ground")
+    instrument = _instrument(ctx, t["instrument"], path + ("instrument",))
+    return Probe(name=name, tip=tip, ground=ground, tip_lead=tip_lead, ground_lead=ground_lead,
+                 instrument=instrument, index=index, line=ctx.lines.line_of(path))
 
 
 EntryParser = Callable[[Context, Any, int], Any]
@@ -426,6 +515,13 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
                      f"duplicate pin: terminal {p.terminal!r} is already placed by "
                      f"pin[{seen_pins[key].index}]; each terminal has one pin")
         seen_pins[key] = p
+    seen_probes: dict[str, Probe] = {}
+    for pr in parsed["probe"]:
+        if pr.name.lower() in seen_probes:
+            ctx.fail(("probe", pr.index, "name"),
+                     f"duplicate probe name {pr.name!r} (also probe[{seen_probes[pr.name.lower()].index}]; "
+                     f"names ignore case); probe names must be unique")
+        seen_probes[pr.name.lower()] = pr
     seen_loops: dict[str, LoopSpec] = {}
     for lp in loops:
         if lp.name in seen_loops:

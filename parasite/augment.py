@@ -26,6 +26,7 @@ from typing import Any
 
 import numpy as np
 
+from parasite import probes
 from parasite.branches import Branch, branch_matrices, build_branches, conducting_segments
 from parasite.naming import NameAllocator, sanitize
 from parasite.pipeline import Extraction
@@ -62,6 +63,7 @@ def node_names(extraction: Extraction, allocator: NameAllocator) -> dict[int, st
     names: dict[int, str] = {}
     for net, node in graph.anchors.items():
         names[node] = allocator.take(net)
+    names.update(probes.end_node_names(graph, allocator))  # probe_<name>_tip / _gnd
     counters: dict[str, int] = {}
     for node in graph.nodes:
         if node.id in names:
@@ -96,6 +98,7 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
 
     keep_nodes = {p.node for p in graph.pins} | set(graph.anchors.values())
     keep_nodes |= {pl.node for pl in graph.planes}
+    keep_nodes |= probes.kept_nodes(graph)
     mask = conducting_segments(graph, keep_nodes)
     branches = build_branches(graph, mask, keep_nodes, merge=not options.keep_segments)
 
@@ -105,10 +108,13 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
     inductor_names: list[str] = []
     if branches:
         Lb, Rb = branch_matrices(branches, extraction.L, extraction.R)
-        selection = choose_couplings(Lb, options.min_coupling)
+        leads = probes.lead_branches(graph, branches)
+        selection = (probes.select_couplings(Lb, options.min_coupling, leads) if leads.any()
+                     else choose_couplings(Lb, options.min_coupling))
         cards += _branch_cards(extraction, branches, Rb, selection.self_inductance, names,
                                allocator, elements, inductor_names)
         cards += _coupling_cards(selection, inductor_names, elements)
+    cards += probes.instrument_cards(graph, names, elements, netlist.to_bytes())
     report = build_report(extraction, options, selection, branches=branches, node_names=names)
     for pin in graph.pins:  # after the report: loops resolve terminals on the original netlist
         if pin.node != graph.anchors.get(pin.net):

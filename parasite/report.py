@@ -44,6 +44,7 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
                  node_names: dict[int, str] | None = None) -> dict[str, Any]:
     """The JSON report of one extraction (see docs: command-line contract)."""
     from parasite.loops import loop_result_dict, loop_results
+    from parasite.probes import probe_report
 
     inputs = extraction.inputs
     graph = inputs.graph
@@ -63,6 +64,7 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
         for i, j, m, k in segment_couplings(L, options.min_coupling)
     ] if len(L) else []
     loops = [loop_result_dict(r) for r in loop_results(graph, inputs.netlist, L, R)] if graph.routes.loops else []
+    probe_entries = probe_report(extraction, names, loops) if graph.routes.probes else []
     n_br = len(branches or [])
     summary: dict[str, Any] = {
         "segments": len(graph.segments),
@@ -84,6 +86,7 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
         "segments": segments,
         "couplings": couplings,
         "loops": loops,
+        "probes": probe_entries,
         "summary": summary,
         "warnings": list(graph.warnings),
         "caution": CAUTION,
@@ -140,6 +143,10 @@ def report_text(report: dict[str, Any], max_couplings: int = 20) -> str:
                        for c in cpl[:max_couplings]], right={2, 3})
     if report["loops"]:
         out += ["", "Loops:", format_loop_table(report["loops"])]
+    if report.get("probes"):
+        from parasite.probes import format_probe_table
+
+        out += ["", f"Probes: {len(report['probes'])}"] + format_probe_table(report["probes"])
     sm = report["summary"]
     out += ["", "Summary:"]
     out += [f"  {k}: {v}" for k, v in sm.items()]

@@ -54,7 +54,7 @@ CASES: dict[str, tuple[int | None, str | None, str]] = {
     "negative_loop_frequency": (16, "loop[0].frequency", r"positive number in Hz .*got -1000000\.0"),
     "duplicate_loop": (18, "loop[1].name", r"duplicate loop name 'hot loop' \(also loop\[0\]\)"),
     "net_without_copper": (19, "nets.b", r"net 'b' has no copper in this file; nets with copper: '0', 'a'"),
-    "probe_unsupported": (13, "probe[0]", r"\[\[probe\]\] entries are not supported"),
+    "probe_missing_key": (13, "probe[0]", r"missing required key 'tip'"),
     "not_toml": (16, None, r"not valid TOML: Invalid value"),
 }
 

@@ -1,0 +1,341 @@
+"""Probes: the measurement's own leads in the circuit model.
+
+A ``[[probe]]`` of the routes file (:class:`geometry.model.Probe`) has two
+leads, round wires along polylines in space, from their contacts on the copper
+to the instrument's input. The copper graph makes each lead a chain of
+``probe`` segments (nets ``probe:<name>:tip`` and ``probe:<name>:ground``)
+that starts at its contact node; the extraction couples them to all copper
+like any other segment. Here:
+
+* the netlist side: the lead end nodes get stable names
+  (``probe_<name>_tip``, ``probe_<name>_gnd``), the instrument input (R in
+  parallel with C) goes between them, and a ``.save`` card makes the simulator
+  write both; every coupling of a lead is written, whatever its |k|
+  (:func:`select_couplings`), since a lead's pick-up is the sum of many weak
+  couplings;
+* the report side: each probe's reading node pair, its leads' loop inductance
+  and the resonance of that inductance with the instrument's capacitance, and
+  its pick-up from each ``[[loop]]`` of the routes file (:func:`probe_report`).
+
+Pick-up (Faraday's law, e.g. Griffiths, *Introduction to Electrodynamics*,
+4th ed., 2013, ch. 7.1-7.2; in partial-inductance form, Ruehli, "Inductance
+calculations in a complex integrated circuit environment", IBM J. Res. Dev.
+16(5), 1972). Orient the probe loop from the tip contact along the tip lead to
+the instrument, through it, and back along the ground lead to the ground
+contact. With ``v`` = +1 on the tip lead's segments, -1 on the ground lead's
+(both leads' segments point from contact to instrument), and ``c`` the
+segment currents of a circuit loop per ampere of its current ``I`` (the
+current division of :mod:`parasite.loops` at the loop's frequency), the leads
+see the mutual inductance ``M = v^T L c`` (H). When the leads carry no
+current of their own (a high-impedance input) the reading is
+
+    V(tip end) - V(ground end) = V(tip contact) - V(ground contact) - j omega M I,
+
+so ``omega |M|`` (V/A) is the EMF that the leads' loop adds per ampere of
+loop current at angular frequency omega. The node potentials of the contacts
+are those of the partial-inductance model: only the total reading is a
+physical quantity, and it depends on the path of the leads. Against the ring
+of the same loop, whose voltage across the ringing capacitance is
+``omega L_loop I`` (a series LC at resonance), the pick-up is ``|M| / L_loop``
+of the ring, independent of current and frequency.
+
+The leads' own loop inductance ``v^T L v`` with the instrument's capacitance
+``C`` resonates at ``1 / (2 pi sqrt(L C))`` (Thomson's formula): a long
+ground lead rings there on every fast edge, whatever the circuit does.
+
+Caution: probing a live power stage is hazardous (high voltage, stored energy,
+large currents); follow local codes and licensed practice. The numbers are
+estimates from a simplified model, to be confirmed by measurement.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from parasite.naming import NameAllocator, sanitize
+
+if TYPE_CHECKING:
+    from geometry.model import CopperGraph, Probe
+    from parasite.branches import Branch
+    from parasite.extract.couplings import CouplingSelection
+
+CAUTION = (
+    "Probing a live power stage is hazardous (high voltage, stored energy, large currents): "
+    "follow local codes and licensed practice. Probe readings and pick-up are estimates, to be "
+    "confirmed by measurement."
+)
+
+
+@dataclass(frozen=True)
+class ProbeNodes:
+    """A probe's place in the copper graph (node ids and segment indices)."""
+
+    probe: Probe
+    tip_contact: int
+    ground_contact: int
+    tip_end: int
+    ground_end: int
+    tip_segments: tuple[int, ...]  # contact -> end
+    ground_segments: tuple[int, ...]  # contact -> end
+
+
+def probe_nodes(graph: CopperGraph) -> list[ProbeNodes]:
+    """Every probe of the graph, in the routes file's order."""
+    out: list[ProbeNodes] = []
+    for pr in graph.routes.probes:
+        tip = tuple(s.index for s in graph.segments if s.source == f"probe[{pr.index}].tip_lead")
+        gnd = tuple(s.index for s in graph.segments
+                    if s.source == f"probe[{pr.index}].ground_lead")
+        segs = graph.segments
+        out.append(ProbeNodes(
+            probe=pr, tip_contact=segs[tip[0]].node_from, ground_contact=segs[gnd[0]].node_from,
+            tip_end=segs[tip[-1]].node_to, ground_end=segs[gnd[-1]].node_to,
+            tip_segments=tip, ground_segments=gnd))
+    return out
+
+
+def kept_nodes(graph: CopperGraph) -> set[int]:
+    """Nodes that must stay in the netlist: the contacts (a lead is never merged
+    with the copper it touches) and the lead ends (the instrument's terminals)."""
+    out: set[int] = set()
+    for pn in probe_nodes(graph):
+        out |= {pn.tip_contact, pn.ground_contact, pn.tip_end, pn.ground_end}
+    return out
+
+
+def end_node_names(graph: CopperGraph, allocator: NameAllocator) -> dict[int, str]:
+    """Netlist names of the lead ends: ``probe_<name>_tip`` (the reading's plus
+    side) and ``probe_<name>_gnd`` (its minus side), made unique by ``allocator``."""
+    names: dict[int, str] = {}
+    for pn in probe_nodes(graph):
+        base = sanitize(pn.probe.name)
+        names[pn.tip_end] = allocator.new(f"probe_{base}_tip")
+        names[pn.ground_end] = allocator.new(f"probe_{base}_gnd")
+    return names
+
+
+def lead_branches(graph: CopperGraph, branches: Sequence[Branch]) -> np.ndarray:
+    """Boolean mask of the branches made of probe-lead segments."""
+    return np.array([graph.segments[b.segments[0]].kind == "probe" for b in branches],
+                    dtype=bool)
+
+
+def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
+                     margin: float = 1e-3) -> CouplingSelection:
+    """Couplings to write: those of the circuit's branches chosen by
+    :func:`parasite.extract.choose_couplings` (threshold, diagonal
+    compensation where needed), plus every non-zero coupling of a probe-lead
+    branch (``leads`` True) with any other branch, written exactly.
+
+    The written matrix stays positive definite: when the threshold alone
+    leaves the circuit block with ``Lw >= L`` not guaranteed and the combined
+    matrix's smallest eigenvalue falls below ``margin`` times the full
+    matrix's, the circuit block is compensated on its diagonal (then
+    ``Lw_cc >= L_cc``, so the Schur complement of the leads is at least that
+    of the exact matrix, which is positive)."""
+    from parasite.errors import ExtractionError
+    from parasite.extract.couplings import (
+        CouplingSelection,
+        _round_k,
+        choose_couplings,
+        smallest_eigenvalue,
+        written_matrix,
+    )
+
+    leads = np.asarray(leads, dtype=bool)
+    if not leads.any():
+        return choose_couplings(Lb, min_coupling, margin=margin)
+    Lb = 0.5 * (Lb + Lb.T)
+    circ = np.flatnonzero(~leads)
+    lam_full = smallest_eigenvalue(Lb)
+    if lam_full <= 0:
+        raise ExtractionError(
+            f"the extracted inductance matrix with the probe leads is not positive definite "
+            f"(smallest eigenvalue {lam_full:.3e} H): does a lead run through copper?")
+
+    def combine(sub: CouplingSelection) -> CouplingSelection:
+        n = Lb.shape[0]
+        self_l = np.array([float(f"{v:.10e}") for v in np.diag(Lb).tolist()])
+        self_l[circ] = sub.self_inductance
+        iu, ju = np.triu_indices(n, 1)
+        lead_pair = (leads[iu] | leads[ju]) & (Lb[iu, ju] != 0.0)
+        i = np.concatenate([circ[sub.i], iu[lead_pair]])
+        j = np.concatenate([circ[sub.j], ju[lead_pair]])
+        d = np.sqrt(self_l)
+        k_lead = _round_k(Lb[iu[lead_pair], ju[lead_pair]] / (d[iu[lead_pair]] * d[ju[lead_pair]]))
+        k = np.concatenate([sub.k, k_lead])
+        order = np.lexsort((j, i))
+        i, j, k = i[order], j[order], k[order]
+        lam = smallest_eigenvalue(written_matrix(self_l, i, j, k))
+        n_lead = int(np.count_nonzero(lead_pair))
+        return CouplingSelection(
+            i=i, j=j, k=k, self_inductance=self_l, method=sub.method,
+            note=(sub.note + ("; " if sub.note else "")
+                  + f"{n_lead} couplings of probe leads written whatever their |k|"),
+            min_eigenvalue=lam, dropped=sub.dropped, kept=sub.kept + n_lead)
+
+    Lcc = Lb[np.ix_(circ, circ)]
+    out = combine(choose_couplings(Lcc, min_coupling, margin=margin))
+    if out.min_eigenvalue < margin * lam_full:
+        out = combine(choose_couplings(Lcc, min_coupling, margin=math.inf))
+    if out.min_eigenvalue <= 0:
+        raise ExtractionError(
+            f"could not write a positive definite inductance matrix with the probe leads "
+            f"(smallest eigenvalue {out.min_eigenvalue:.3e} H)")
+    return out
+
+
+_SAVE = re.compile(rb"^[ \t]*\.save\b", re.IGNORECASE | re.MULTILINE)
+
+
+def has_save_card(netlist_bytes: bytes) -> bool:
+    """True when the main file has a ``.save`` card (which limits what ngspice
+    writes; further ``.save`` cards add to the list)."""
+    return _SAVE.search(netlist_bytes) is not None
+
+
+def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAllocator,
+                     netlist_bytes: bytes) -> list[str]:
+    """The instrument inputs (R in parallel with C between the lead ends) and a
+    ``.save`` card for the reading's nodes.
+
+    ngspice writes every node when a deck has no ``.save`` card and only the
+    listed ones when it has one; ``.save`` cards add up (ngspice 39, checked by
+    a run). So the card lists the probe nodes, with ``all`` in front when the
+    main file has no ``.save`` of its own (a ``.save`` in an included file is
+    not looked for: then ``all`` writes more than that file asked for)."""
+    cards: list[str] = []
+    saved: list[str] = []
+    for pn in probe_nodes(graph):
+        pr, ins = pn.probe, pn.probe.instrument
+        plus, minus = names[pn.tip_end], names[pn.ground_end]
+        tag = sanitize(pr.name)
+        what = f"preset {ins.preset!r}" if ins.preset else "given values"
+        cards.append(f"* probe {pr.name}: reading = v({plus}) - v({minus}); instrument input "
+                     f"{ins.resistance:g} ohm || {ins.capacitance:g} F ({what})")
+        cards.append(f"{elements.new('Rprobe_' + tag)} {plus} {minus} {ins.resistance:.10e}")
+        cards.append(f"{elements.new('Cprobe_' + tag)} {plus} {minus} {ins.capacitance:.10e}")
+        saved += [f"v({plus})", f"v({minus})"]
+    if saved:
+        lead = [] if has_save_card(netlist_bytes) else ["all"]
+        cards.append(".save " + " ".join(lead + saved))
+    return cards
+
+
+# ---------------------------------------------------------------------------
+# The report
+
+
+def _loop_vector(graph: CopperGraph, pn: ProbeNodes) -> np.ndarray:
+    v = np.zeros(len(graph.segments))
+    v[list(pn.tip_segments)] = 1.0
+    v[list(pn.ground_segments)] = -1.0
+    return v
+
+
+def _lead_length(graph: CopperGraph, segs: Sequence[int]) -> float:
+    return float(sum(graph.segments[s].length for s in segs))
+
+
+def probe_report(extraction: Any, names: dict[int, str],
+                 loops: Sequence[dict[str, Any]]) -> list[dict[str, Any]]:
+    """The report's ``probes`` entries (SI units): the reading's node pair
+    (``plus``, ``minus``), the contacts' nets, the instrument, the leads'
+    lengths, their loop inductance and its resonance with the instrument's
+    capacitance, and per ``[[loop]]`` the mutual inductance ``M`` with the
+    leads (module docstring), the pick-up per ampere of loop current at the
+    loop's frequency (``omega |M|``; the extraction's frequency for a loop
+    without one; null when neither is known) and ``|M| / L_loop``.
+    """
+    from parasite.loops import _loop_network, solve_port
+
+    inputs = extraction.inputs
+    graph = inputs.graph
+    L = np.asarray(extraction.L, dtype=float)
+    R = np.asarray(extraction.R, dtype=float)
+    pns = probe_nodes(graph)
+    if not pns:
+        return []
+    by_name = {lp["name"]: lp for lp in loops}
+    currents: list[tuple[Any, np.ndarray, float | None]] = []
+    for spec in graph.routes.loops:
+        f = spec.frequency if spec.frequency is not None else extraction.frequency
+        segments, injection, n_nodes = _loop_network(spec, graph, inputs.netlist)
+        sol = solve_port(graph.arrays.node_from[segments].astype(np.int64),
+                         graph.arrays.node_to[segments].astype(np.int64), n_nodes, injection,
+                         L[np.ix_(segments, segments)], R[segments], 0.0 if f is None else f)
+        c = np.zeros(len(graph.segments), dtype=complex)
+        c[segments] = sol.currents
+        currents.append((spec, c, f))
+    out: list[dict[str, Any]] = []
+    for pn in pns:
+        pr, ins = pn.probe, pn.probe.instrument
+        v = _loop_vector(graph, pn)
+        l_leads = float(v @ L @ v)
+        entries = []
+        for spec, c, f in currents:
+            m = complex(v @ (L @ c))
+            l_loop = by_name.get(spec.name, {}).get("inductance")
+            entries.append({
+                "loop": spec.name,
+                "frequency": f,
+                "mutual": m.real,
+                "mutual_magnitude": abs(m),
+                "pickup_per_ampere": None if f is None else 2 * math.pi * f * abs(m),
+                "loop_inductance": l_loop,
+                "pickup_to_ring": (abs(m) / l_loop) if l_loop else None,
+            })
+        out.append({
+            "name": pr.name,
+            "plus": names.get(pn.tip_end),
+            "minus": names.get(pn.ground_end),
+            "tip_net": graph.nodes[pn.tip_contact].net,
+            "ground_net": graph.nodes[pn.ground_contact].net,
+            "tip_contact": names.get(pn.tip_contact),
+            "ground_contact": names.get(pn.ground_contact),
+            "instrument": {"preset": ins.preset, "resistance": ins.resistance,
+                           "capacitance": ins.capacitance},
+            "tip_lead_length": _lead_length(graph, pn.tip_segments),
+            "ground_lead_length": _lead_length(graph, pn.ground_segments),
+            "lead_inductance": l_leads,
+            "lead_resonance": 1.0 / (2 * math.pi * math.sqrt(l_leads * ins.capacitance)),
+            "pickup": entries,
+        })
+    return out
+
+
+def format_probe_table(probes: Sequence[dict[str, Any]]) -> list[str]:
+    """The text report's probe section (lines)."""
+    from parasite.loops import engineering
+
+    lines: list[str] = []
+    for p in probes:
+        ins = p["instrument"]
+        kind = ins["preset"] or "given"
+        lines.append(
+            f"  {p['name']}: reads v({p['plus']}) - v({p['minus']}); tip on net "
+            f"{p['tip_net']!r}, ground on net {p['ground_net']!r}; instrument {kind} "
+            f"({engineering(ins['resistance'], 'ohm')} || {engineering(ins['capacitance'], 'F')})")
+        lines.append(
+            f"    leads: tip {1e3 * p['tip_lead_length']:.1f} mm, ground "
+            f"{1e3 * p['ground_lead_length']:.1f} mm; their loop "
+            f"{engineering(p['lead_inductance'], 'H')}, resonating with the input capacitance at "
+            f"{engineering(p['lead_resonance'], 'Hz')}")
+        for e in p["pickup"]:
+            if e["pickup_per_ampere"] is None:
+                at = "(give the loop a frequency for the EMF)"
+            else:
+                at = (f"adds {engineering(e['pickup_per_ampere'], 'V')} per A of loop current "
+                      f"at {engineering(e['frequency'], 'Hz')}")
+            ratio = ("" if e["pickup_to_ring"] is None else
+                     f"; {100 * e['pickup_to_ring']:.1f}% of the loop's ringing voltage")
+            lines.append(f"    loop {e['loop']!r}: M = {engineering(e['mutual'], 'H')}, {at}{ratio}")
+    if probes:
+        lines.append(f"  {CAUTION}")
+    return lines
