@@ -729,7 +729,7 @@ class _Builder:
                                      width=2 * lead.radius, thickness=2 * lead.radius,
                                      radius=lead.radius, inner=0.0, n0=ids[k], n1=ids[k + 1],
                                      source=f"probe[{pr.index}].{key}_lead",
-                                     name=f"probe {pr.name} {key} lead"))
+                                     name=f"{pr.name} {key} lead"))
         return tuple(nets)
 
     def check_probe_contacts(self, nodes: tuple[Node, ...], segments: list[Segment],
