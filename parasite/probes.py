@@ -329,13 +329,13 @@ def format_probe_table(probes: Sequence[dict[str, Any]]) -> list[str]:
             f"{engineering(p['lead_resonance'], 'Hz')}")
         for e in p["pickup"]:
             if e["pickup_per_ampere"] is None:
-                at = "(give the loop a frequency for the EMF)"
+                at = "no frequency given for this loop, so no EMF"
             else:
                 at = (f"adds {engineering(e['pickup_per_ampere'], 'V')} per A of loop current "
                       f"at {engineering(e['frequency'], 'Hz')}")
             ratio = ("" if e["pickup_to_ring"] is None else
-                     f"; {100 * e['pickup_to_ring']:.1f}% of the loop's ringing voltage")
-            lines.append(f"    loop {e['loop']!r}: M = {engineering(e['mutual'], 'H')}, {at}{ratio}")
+                     f"; pick-up {100 * e['pickup_to_ring']:.1f}% of the loop's ringing voltage")
+            lines.append(f"    loop {e['loop']!r}: M = {engineering(e['mutual'], 'H')}; {at}{ratio}")
     if probes:
         lines.append(f"  {CAUTION}")
     return lines
