@@ -228,6 +228,31 @@ def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAl
     return cards
 
 
+def probe_reading(result: Any, report: dict[str, Any], name: str,
+                  routes_path: str) -> tuple[np.ndarray, np.ndarray, dict[str, Any]]:
+    """The reading of probe ``name`` (case-insensitive) in a transient run of
+    the augmented netlist: time (s), v(plus) - v(minus) (V), and the report's
+    entry of the probe. Raises :class:`geometry.errors.RoutesError` for an
+    unknown probe and :class:`parasite.errors.SimulationError` when the run has
+    no transient plot."""
+    from geometry.errors import RoutesError
+    from parasite.errors import SimulationError
+
+    entries = report.get("probes", [])
+    entry = next((p for p in entries if p["name"].lower() == name.strip().lower()), None)
+    if entry is None:
+        known = ", ".join(repr(p["name"]) for p in entries) or "none"
+        raise RoutesError(f"no probe named {name!r}; the routes file's probes: {known}",
+                          file=routes_path)
+    plot = next((p for p in reversed(result.plots) if "transient" in p.name.lower()), None)
+    if plot is None:
+        raise SimulationError("ngspice ran no transient analysis; the netlist needs a .tran card",
+                              file=routes_path)
+    plus = np.asarray(plot.vector(f"v({entry['plus']})"), dtype=float)
+    minus = np.asarray(plot.vector(f"v({entry['minus']})"), dtype=float)
+    return np.asarray(plot.scale, dtype=float), plus - minus, entry
+
+
 # ---------------------------------------------------------------------------
 # The report
 

@@ -15,6 +15,7 @@ leads are round wires, whose outside field is their axis filament's, and the
 
 from __future__ import annotations
 
+import json
 import math
 import re
 from collections.abc import Sequence
@@ -296,3 +297,51 @@ def test_probe_loop_along_the_flux_reads_nothing(tmp_path: Path) -> None:
     assert abs(emf) > 1e-5  # more than 10 uV per ampere of the square's current
     assert abs(readings[8.0] - emf) < 0.02 * abs(emf)
     assert abs(readings[0.0]) < 1e-6 * abs(emf)
+
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures" / "routes"
+
+
+@pytest.mark.parametrize("own_save", [False, True])
+def test_reading_is_saved_beside_the_netlists_own_vectors(tmp_path: Path, own_save: bool) -> None:
+    """ngspice writes only the vectors of a deck's .save cards, and .save cards
+    add up (checked with ngspice 39, see docs/probes.md): with a .save of its
+    own the netlist keeps its list and gains the probe's nodes; without one,
+    ngspice still writes every node, the probe's included."""
+    deck = (FIXTURES / "probe_resistor.cir").read_text()
+    if own_save:
+        deck = deck.replace(".end", ".save v(a)\n.end")
+    text, res, report = _run(tmp_path, deck, (FIXTURES / "probe_resistor.routes.toml").read_text())
+    (p,) = report["probes"]
+    names = set(res.last.vectors)
+    assert {f"v({p['plus']})", f"v({p['minus']})", "v(a)"} <= names
+    assert ("v(b)" in names) is not own_save
+    assert text.count(".save") == (2 if own_save else 1)
+
+
+def test_ring_reads_the_probe(tmp_path: Path) -> None:
+    """``parasite ring --probe NAME`` takes the probe's reading as the simulated
+    waveform (a step through R1 seen across the probe's instrument); an unknown
+    name is an input error naming the routes file's probes."""
+    from click.testing import CliRunner
+
+    from parasite.cli import main
+
+    deck = (FIXTURES / "probe_resistor.cir").read_text().replace(
+        "V1 a 0 DC 0 AC 1", "V1 a 0 PULSE(0 1 10n 1n 1n 200n 400n)").replace(
+        ".ac lin 1 1meg 1meg", ".tran 0.1n 600n")
+    net, routes = tmp_path / "p.cir", tmp_path / "p.routes.toml"
+    net.write_text(deck)
+    routes.write_text((FIXTURES / "probe_resistor.routes.toml").read_text())
+    run = CliRunner().invoke(main, ["ring", str(net), str(routes), "--node", "a", "--probe", "P1",
+                                    "--format", "json", "--quiet"])
+    assert run.exit_code == 0, run.output
+    report = json.loads(run.stdout)
+    assert report["probe"] == {"name": "p1", "plus": "probe_p1_tip", "minus": "probe_p1_gnd"}
+    # R1 and R2 divide the 1 V step in half: the probe across R1 steps by 0.5 V
+    (edge, *_) = report["simulations"]["augmented"]["edges"]
+    assert edge["step"] == pytest.approx(0.5, rel=0.02)
+    bad = CliRunner().invoke(main, ["ring", str(net), str(routes), "--node", "a", "--probe", "p9",
+                                    "--quiet"])
+    assert bad.exit_code == 1
+    assert "no probe named 'p9'; the routes file's probes: 'p1'" in bad.output

@@ -34,6 +34,10 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @click.option("--loop", "loop_name", default=None,
               help="The routes file's loop to compare the fitted inductance with (default: "
                    "its first loop).")
+@click.option("--probe", "probe", default=None,
+              help="A [[probe]] of the routes file: its reading (the voltage across the "
+                   "instrument's input at the end of its leads) is the simulated waveform, "
+                   "instead of the voltage at NODE.")
 @click.option("--all-edges", is_flag=True, help="Print every simulated edge, not the last of "
               "each direction.")
 @click.option("--timeout", type=click.FloatRange(min=1.0), default=600.0, show_default=True,
@@ -44,8 +48,8 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @reports_input_errors
 def ring(netlist: str, routes: str, node: str, measured: str | None, channel: str | None,
          plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
-         loop_name: str | None, all_edges: bool, timeout: float, min_coupling: float | None,
-         frequency: float | None, quiet: bool) -> None:
+         loop_name: str | None, probe: str | None, all_edges: bool, timeout: float,
+         min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
     """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
     measure each switching edge (ring frequency, damping ratio from the
     logarithmic decrement, peak overshoot, settling time), and compare with a
@@ -75,7 +79,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, channel: st
         result = analyse_ring(
             netlist, routes, node, measured_path=measured, channel=channel, band=band,
             capacitance=capacitance, loop=loop_name, min_coupling=min_coupling,
-            frequency=frequency, timeout=timeout, progress=progress,
+            frequency=frequency, timeout=timeout, progress=progress, probe=probe,
         )
     finally:
         if progress is not None:

@@ -144,6 +144,7 @@ def analyse_ring(
     frequency: float | None = None,
     timeout: float = 600.0,
     progress: Callable[[str, float], None] | None = None,
+    probe: str | None = None,
 ) -> RingResult:
     """Simulate NETLIST as it is and with the copper of ROUTES (``routes_path``
     None: the original only), measure the ring at ``node``, and compare with a
@@ -152,7 +153,10 @@ def analyse_ring(
     ``progress(stage, simulated_time)`` is called during long simulations.
     ``capacitance`` (F) overrides the ring capacitance taken from the
     netlist's device models; ``loop`` names the routes file's loop to compare
-    the fitted inductance with (default: its first loop).
+    the fitted inductance with (default: its first loop). ``probe`` names a
+    ``[[probe]]`` of the routes file whose reading (the voltage across its
+    instrument input) is the augmented simulation's waveform instead of the
+    node's voltage.
     """
     from parasite.netlist import read_netlist
     from parasite.spice import run_ngspice
@@ -226,7 +230,13 @@ def analyse_ring(
         aug_name = f"{netlist_path} (augmented with {routes_path})"
         aug_res = run_ngspice(aug.netlist_bytes, base_dir=base_dir, timeout=timeout,
                               name=aug_name, progress=stage("simulating the augmented netlist"))
-        t_a, v_a = _node_wave(aug_res, node_key, aug_name)
+        if probe is not None:
+            from parasite.probes import probe_reading
+
+            t_a, v_a, probe_entry = probe_reading(aug_res, aug.report, probe, routes_path)
+            report["probe"] = {k: probe_entry[k] for k in ("name", "plus", "minus")}
+        else:
+            t_a, v_a = _node_wave(aug_res, node_key, aug_name)
         aug_edges = ring_metrics(t_a, v_a, band=band, name=f"{aug_name}, node {node_key}")
         report["simulations"]["augmented"] = {
             "edges": [m.to_dict() for m in aug_edges],
