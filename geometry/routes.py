@@ -15,8 +15,11 @@ Key paths count entries from 0 like a JSON array index: ``trace[0]`` is the
 first ``[[trace]]`` of the file, ``trace[0].points[1]`` its second point.
 
 Each kind of ``[[entry]]`` is parsed by its own function, registered in
-:data:`ENTRY_PARSERS`; the probes feature registers its parser for
-``probe`` there (see :func:`parse_probe_entry`).
+:data:`ENTRY_PARSERS`. ``[[probe]]`` (:func:`parse_probe_entry`): ``name``;
+``tip`` and ``ground`` contacts ``{ layer, at [, net] }``; ``tip_lead`` and
+``ground_lead`` ``{ points = [[x, y, z], ...], radius }`` starting at their
+contact on the layer's top face; ``instrument``, ``"10x"``, ``"1x"`` or
+``{ resistance, capacitance }`` (docs/routes-file.md, "Probes").
 """
 
 from __future__ import annotations
