@@ -140,7 +140,8 @@ def _header(extraction: Extraction, report: dict[str, Any], branches: list[Branc
         f"({selection.method if selection else 'none'})",
         f"* {len(used_nodes - anchors)} new nodes; resistance "
         + ("at DC" if freq is None else f"at {freq:g} Hz (skin effect estimate)"),
-        f"* smallest eigenvalue of the inductance matrix as written: {summary['min_eigenvalue']:.4e} H",
+        "* smallest eigenvalue of the inductance matrix as written: "
+        + ("-" if summary["min_eigenvalue"] is None else f"{summary['min_eigenvalue']:.4e} H"),
         "* partial inductances from closed-form formulas: estimates, to be confirmed by measurement",
     ]
     if selection is not None and selection.note:

@@ -91,3 +91,36 @@ def mutual_coplanar_polygons(p: list[tuple[float, float]], q: list[tuple[float, 
                 b1, b2 = sorted((q0[axis], q1[axis]))
                 total += sp * sq * mutual_parallel_spans(a1, a2, b1, b2, d)
     return total
+
+
+def mutual_coplanar_paths(paths_a: list[list[tuple[float, float]]],
+                          paths_b: list[list[tuple[float, float]]]) -> float:
+    """Like :func:`mutual_coplanar_polygons` for open polylines (cut loops):
+    Neumann's formula summed over every pair of parallel pieces of the two
+    sets of paths, each piece oriented in its path's order."""
+    def pieces(paths: list[list[tuple[float, float]]]) -> list[list[tuple[float, float]]]:
+        return [[p[i], p[i + 1]] for p in paths for i in range(len(p) - 1)]
+
+    total = 0.0
+    for pa in pieces(paths_a):
+        for pb in pieces(paths_b):
+            # a two-point "polygon" has its piece twice (there and back); take the first side only
+            total += _piece_mutual(pa[0], pa[1], pb[0], pb[1])
+    return total
+
+
+def _piece_mutual(p0: tuple[float, float], p1: tuple[float, float],
+                  q0: tuple[float, float], q1: tuple[float, float]) -> float:
+    for axis in (0, 1):
+        other = 1 - axis
+        if p0[other] != p1[other] or q0[other] != q1[other]:
+            continue
+        if p0[axis] == p1[axis] or q0[axis] == q1[axis]:
+            continue
+        d = abs(p0[other] - q0[other])
+        sp = 1.0 if p1[axis] > p0[axis] else -1.0
+        sq = 1.0 if q1[axis] > q0[axis] else -1.0
+        a1, a2 = sorted((p0[axis], p1[axis]))
+        b1, b2 = sorted((q0[axis], q1[axis]))
+        return sp * sq * mutual_parallel_spans(a1, a2, b1, b2, d)
+    return 0.0
