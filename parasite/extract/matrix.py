@@ -1,0 +1,248 @@
+"""Assembly of the partial inductance matrix of all segments (H), images included.
+
+Every pair is sorted by kind and evaluated in numpy blocks (no per-pair Python
+loops):
+
+* perpendicular segments (|cos| < 1e-12): exactly 0 (Neumann's formula has the
+  factor u_a . u_b);
+* parallel bars: :func:`parasite.extract.bars.parallel_bars` (exact near,
+  moment-corrected filaments far);
+* coaxial round conductors (pieces of a via stack, a via and its image):
+  :func:`parasite.extract.round.coaxial_round_mutual`;
+* other parallel pairs with a round conductor: centre filaments with the
+  second-moment correction of both sections;
+* any other angle: Gauss-Legendre filaments over both sections with Neumann's
+  closed form, order from distance / section size
+  (:mod:`parasite.extract.inclined`).
+
+Return planes: ``L_ij = M(i, j) + M(i, image_j(j))`` with image factor -1
+(:mod:`parasite.extract.images`). When i and j mirror in different planes this
+is not symmetric; the matrix is made exactly symmetric by using the mean
+``M(i, j) - (M(i, image_j(j)) + M(j, image_i(i)))/2`` for every pair, which is
+the same number when both mirror in the same plane. A segment without a plane
+(NaN) contributes no image term of its own.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from geometry.model import SegmentArrays
+from parasite.errors import ExtractionError
+from parasite.extract.bars import bar_self_inductance, parallel_bars, parallel_filaments_corrected
+from parasite.extract.images import IMAGE_SIGN, mirror_points
+from parasite.extract.inclined import choose_order, inclined_mutual, segment_distance
+from parasite.extract.round import (
+    coaxial_round_mutual,
+    round_section_variance,
+    round_self_inductance,
+)
+
+PERPENDICULAR_COS = 1e-12
+PARALLEL_SIN = 1e-9
+BLOCK_PAIRS = 100_000  # pairs per vectorised block (bounds the temporaries to a few tens of MB)
+
+
+@dataclass(frozen=True)
+class _Conductors:
+    """Segments and their images as one table of 'virtual' conductors."""
+
+    start: np.ndarray
+    end: np.ndarray
+    u: np.ndarray
+    length: np.ndarray
+    round: np.ndarray
+    width: np.ndarray  # bars: width; round: side of the square of equal second moment
+    thickness: np.ndarray
+    radius: np.ndarray
+    inner: np.ndarray
+    w_dir: np.ndarray
+    t_dir: np.ndarray
+    size: np.ndarray  # largest section dimension (m)
+
+
+def _conductors(start: np.ndarray, end: np.ndarray, width: np.ndarray, thickness: np.ndarray,
+                rnd: np.ndarray, radius: np.ndarray, inner: np.ndarray) -> _Conductors:
+    d = end - start
+    length = np.linalg.norm(d, axis=1)
+    u = d / length[:, None]
+    ez = np.array([0.0, 0.0, 1.0])
+    # section frame: bars lie in the board plane (width horizontal, thickness along z)
+    helper = np.where((np.abs(u[:, 2]) > 0.9)[:, None], np.array([1.0, 0.0, 0.0]), ez)
+    w_dir = np.cross(helper, u)
+    w_dir /= np.linalg.norm(w_dir, axis=1)[:, None]
+    t_dir = np.cross(u, w_dir)
+    side = np.sqrt(3.0 * (radius**2 + inner**2))
+    wid = np.where(rnd, side, width)
+    thk = np.where(rnd, side, thickness)
+    size = np.where(rnd, 2 * radius, np.maximum(width, thickness))
+    return _Conductors(start, end, u, length, rnd, wid, thk, radius, inner, w_dir, t_dir, size)
+
+
+def _mutual(c: _Conductors, ia: np.ndarray, ib: np.ndarray) -> np.ndarray:
+    """Partial mutual inductance (H) of virtual conductors ia[k], ib[k] (k pairs)."""
+    ua, ub = c.u[ia], c.u[ib]
+    cos = np.einsum("ij,ij->i", ua, ub)
+    sin = np.linalg.norm(np.cross(ua, ub), axis=1)
+    out = np.zeros(ia.shape[0])
+    par = (sin < PARALLEL_SIN) & (np.abs(cos) >= PERPENDICULAR_COS)
+    gen = ~par & (np.abs(cos) >= PERPENDICULAR_COS)
+    if np.any(par):
+        out[par] = _parallel(c, ia[par], ib[par], np.sign(cos[par]))
+    if np.any(gen):
+        a, b = ia[gen], ib[gen]
+        dist = segment_distance(c.start[a], c.end[a], c.start[b], c.end[b])
+        order = choose_order(dist, np.maximum(c.size[a], c.size[b]))
+        out[gen] = inclined_mutual(c.start[a], c.end[a], c.w_dir[a], c.t_dir[a], c.width[a],
+                                   c.thickness[a], c.start[b], c.end[b], c.w_dir[b], c.t_dir[b],
+                                   c.width[b], c.thickness[b], order)
+    return out
+
+
+def _parallel(c: _Conductors, a: np.ndarray, b: np.ndarray, sgn: np.ndarray) -> np.ndarray:
+    ua = c.u[a]
+    rel0 = c.start[b] - c.start[a]
+    rel1 = c.end[b] - c.start[a]
+    x0 = np.einsum("ij,ij->i", rel0, ua)
+    x1 = np.einsum("ij,ij->i", rel1, ua)
+    lo, hi = np.minimum(x0, x1), np.maximum(x0, x1)
+    zero = np.zeros_like(lo)
+    la = c.length[a]
+    perp = rel0 - x0[:, None] * ua
+    dy = np.einsum("ij,ij->i", perp, c.w_dir[a])
+    dz = np.einsum("ij,ij->i", perp, c.t_dir[a])
+    rho = np.hypot(dy, dz)
+    ra, rb = c.round[a], c.round[b]
+    out = np.empty(a.shape[0])
+    bars = ~ra & ~rb
+    if np.any(bars):
+        m = bars
+        out[m] = parallel_bars(zero[m], la[m], lo[m], hi[m], dy[m], dz[m], c.width[a][m],
+                               c.thickness[a][m], c.width[b][m], c.thickness[b][m])
+    both = ra & rb
+    coax = both & (rho <= 1e-6 * np.minimum(c.radius[a], c.radius[b]))
+    if np.any(coax):
+        m = coax
+        out[m] = coaxial_round_mutual(zero[m], la[m], lo[m], hi[m], c.radius[a][m],
+                                      c.inner[a][m], c.radius[b][m], c.inner[b][m])
+    rest = ~bars & ~coax
+    if np.any(rest):
+        m = rest
+        var_a = np.where(ra[m], round_section_variance(c.radius[a][m], c.inner[a][m]), 0.0)
+        var_b = np.where(rb[m], round_section_variance(c.radius[b][m], c.inner[b][m]), 0.0)
+        m2y = var_a + var_b + np.where(ra[m], 0.0, c.width[a][m] ** 2 / 12) \
+            + np.where(rb[m], 0.0, c.width[b][m] ** 2 / 12)
+        m2z = var_a + var_b + np.where(ra[m], 0.0, c.thickness[a][m] ** 2 / 12) \
+            + np.where(rb[m], 0.0, c.thickness[b][m] ** 2 / 12)
+        out[m] = parallel_filaments_corrected(zero[m], la[m], lo[m], hi[m], dy[m], dz[m],
+                                              m2y, m2z)
+    return sgn * out
+
+
+def _validate(arrays: SegmentArrays) -> None:
+    length = arrays.length
+    checks = [
+        (~np.isfinite(arrays.start).all(axis=1) | ~np.isfinite(arrays.end).all(axis=1),
+         "has a coordinate that is not a finite number"),
+        (~(length > 0), "has zero length"),
+        (~arrays.round & ~((arrays.width > 0) & (arrays.thickness > 0)),
+         "is a bar without a positive width and thickness"),
+        (arrays.round & ~((arrays.radius > 0) & (arrays.inner_radius >= 0)
+                          & (arrays.inner_radius < arrays.radius)),
+         "is a round conductor without 0 <= inner radius < radius"),
+        (~arrays.round & (np.abs(arrays.end[:, 2] - arrays.start[:, 2]) > 1e-9 * length),
+         "is a bar that does not lie in the board plane"),
+    ]
+    for bad, what in checks:
+        if np.any(bad):
+            i = int(np.argmax(bad))
+            raise ExtractionError(
+                f"segment {i} {what} (start {arrays.start[i].tolist()}, end {arrays.end[i].tolist()}"
+                f", width {arrays.width[i]:g}, thickness {arrays.thickness[i]:g}, radius "
+                f"{arrays.radius[i]:g}, inner radius {arrays.inner_radius[i]:g}); expected a "
+                "straight segment of positive length with a positive section", key="segments")
+
+
+def self_inductances(arrays: SegmentArrays) -> np.ndarray:
+    """Partial self inductance (H) of every segment, without images."""
+    out = np.empty(len(arrays))
+    rnd = np.asarray(arrays.round, dtype=bool)
+    length = arrays.length
+    if np.any(~rnd):
+        out[~rnd] = bar_self_inductance(length[~rnd], arrays.width[~rnd], arrays.thickness[~rnd])
+    if np.any(rnd):
+        out[rnd] = round_self_inductance(length[rnd], arrays.radius[rnd], arrays.inner_radius[rnd])
+    return out
+
+
+def inductance_matrix(arrays: SegmentArrays, *,
+                      progress: Callable[[int, int], None] | None = None) -> np.ndarray:
+    """Dense partial inductance matrix (N, N) in H, float64, exactly symmetric, images
+    included (module docstring). ``progress(pairs_done, pairs_total)`` is called after
+    each block (pairs counted with i <= j)."""
+    _validate(arrays)
+    n = len(arrays)
+    rnd = np.asarray(arrays.round, dtype=bool)
+    mz = np.asarray(arrays.mirror_z, dtype=float)
+    has = np.isfinite(mz)
+    img_index = np.full(n, -1)
+    img_index[has] = n + np.arange(int(has.sum()))
+    start = np.concatenate([arrays.start, mirror_points(arrays.start[has], mz[has])])
+    end = np.concatenate([arrays.end, mirror_points(arrays.end[has], mz[has])])
+    cond = _conductors(start, end, *(np.concatenate([v, v[has]]) for v in (
+        np.asarray(arrays.width, float), np.asarray(arrays.thickness, float), rnd,
+        np.asarray(arrays.radius, float), np.asarray(arrays.inner_radius, float))))
+
+    total = n * (n + 1) // 2
+    L = np.empty((n, n))
+    diag = self_inductances(arrays)
+    idx = np.nonzero(has)[0]
+    if idx.size:
+        diag[idx] += IMAGE_SIGN * _mutual(cond, idx, img_index[idx])
+    L[np.arange(n), np.arange(n)] = diag
+    done = n
+    if progress is not None:
+        progress(done, total)
+
+    counts = np.arange(n - 1, 0, -1)  # pairs (i, j > i) of row i
+    row = 0
+    while row < n - 1:
+        cum = np.cumsum(counts[row:])
+        stop = row + max(1, int(np.searchsorted(cum, BLOCK_PAIRS, side="right")))
+        stop = min(stop, n - 1)
+        rows = np.arange(row, stop)
+        cnt = counts[row:stop]
+        i = np.repeat(rows, cnt)
+        first = np.repeat(np.cumsum(cnt) - cnt, cnt)
+        j = i + 1 + (np.arange(i.size) - first)
+        L_block = _pair_values(cond, i, j, img_index, mz)
+        L[i, j] = L_block
+        L[j, i] = L_block
+        done += i.size
+        if progress is not None:
+            progress(done, total)
+        row = stop
+    return L
+
+
+def _pair_values(cond: _Conductors, i: np.ndarray, j: np.ndarray, img_index: np.ndarray,
+                 mz: np.ndarray) -> np.ndarray:
+    """L_ij for pairs i < j: direct term plus the symmetrised image terms."""
+    hi_, hj = img_index[i] >= 0, img_index[j] >= 0
+    same = hi_ & hj & (mz[i] == mz[j])
+    one_j = hj  # M(i, image j)
+    one_i = hi_ & ~same  # M(j, image i), needed only when the planes differ
+    ia = np.concatenate([i, i[one_j], j[one_i]])
+    ib = np.concatenate([j, img_index[j[one_j]], img_index[i[one_i]]])
+    m = _mutual(cond, ia, ib)
+    k = i.size
+    direct = m[:k]
+    img_j = np.zeros(k)
+    img_j[one_j] = m[k:k + int(one_j.sum())]
+    img_i = np.zeros(k)
+    img_i[one_i] = m[k + int(one_j.sum()):]
+    img_i = np.where(same, img_j, img_i)
+    return direct + IMAGE_SIGN * 0.5 * (img_j + img_i)
