@@ -146,6 +146,10 @@ def _header(extraction: Extraction, report: dict[str, Any], branches: list[Branc
     ]
     if selection is not None and selection.note:
         lines.append(f"* {selection.note}")
+    if selection is not None and selection.dropped:
+        # the dropped pairs are meant to be 0: keep ngspice's positive-definite check of every
+        # coupled group, but not its listing of each missing pair (ngspice's indverbosity option)
+        lines.append(".options indverbosity=1")
     if any(b.node_from == b.node_to for b in branches):
         lines.append("* note: closed rings of copper are written as a branch from a node to itself")
     return lines
