@@ -63,7 +63,8 @@ def main() -> None:
         nk = len(re.findall(rb"^Kp_", res.netlist_bytes, re.MULTILINE))
         dt, t, v = timed_run(res.netlist_bytes)
         peak, f = ring_metrics(t, v)
-        loop = next((lp["inductance"] for lp in res.report["loops"] if lp["name"] == "hot loop"), float("nan"))
+        loop = next((lp["inductance"] for lp in res.report["loops"] if lp["name"] == "hot loop"),
+                    float("nan"))
         rows.append((f"min-coupling {thr:g}" + (" (dense)" if thr == 0 else ""), f"{1e9 * loop:.4f}",
                      nk, dt, peak, f))
     print("| netlist | hot loop nH (report) | K lines | ngspice s | sw peak V | ring MHz |")

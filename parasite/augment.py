@@ -61,18 +61,18 @@ def node_names(extraction: Extraction, allocator: NameAllocator) -> dict[int, st
     its net's name, the others are ``<net>_<n>`` in node order."""
     graph = extraction.inputs.graph
     names: dict[int, str] = {}
-    for net, node in graph.anchors.items():
-        names[node] = allocator.take(net)
+    for net, anchor in graph.anchors.items():
+        names[anchor] = allocator.take(net)
     names.update(probes.end_node_names(graph, allocator))  # probe_<name>_tip / _gnd
     counters: dict[str, int] = {}
-    for node in graph.nodes:
-        if node.id in names:
+    for gnode in graph.nodes:
+        if gnode.id in names:
             continue
-        base = sanitize(node.net)
+        base = sanitize(gnode.net)
         if not base[0].isalpha():
             base = "n" + base
-        counters[node.net] = counters.get(node.net, 0) + 1
-        names[node.id] = allocator.new(f"{base}_{counters[node.net]}")
+        counters[gnode.net] = counters.get(gnode.net, 0) + 1
+        names[gnode.id] = allocator.new(f"{base}_{counters[gnode.net]}")
     return names
 
 

@@ -23,7 +23,8 @@ def _num(x: float) -> float | None:
     return x if math.isfinite(x) else None
 
 
-def segment_couplings(L: np.ndarray, min_coupling: float, block: int = 2048) -> list[tuple[int, int, float, float]]:
+def segment_couplings(L: np.ndarray, min_coupling: float,
+                      block: int = 2048) -> list[tuple[int, int, float, float]]:
     """Segment pairs (i < j) with |k| >= ``min_coupling``: (i, j, mutual H, k),
     computed in row blocks so that no second N x N array is made."""
     n = L.shape[0]
@@ -63,7 +64,8 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
         {"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
         for i, j, m, k in segment_couplings(L, options.min_coupling)
     ] if len(L) else []
-    loops = [loop_result_dict(r) for r in loop_results(graph, inputs.netlist, L, R)] if graph.routes.loops else []
+    loops = ([loop_result_dict(r) for r in loop_results(graph, inputs.netlist, L, R)]
+             if graph.routes.loops else [])
     probe_entries = probe_report(extraction, names, loops) if graph.routes.probes else []
     n_br = len(branches or [])
     summary: dict[str, Any] = {

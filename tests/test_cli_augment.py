@@ -71,7 +71,8 @@ def test_bad_input_exit_1_names_file_and_writes_nothing(tmp_path: Path) -> None:
     """A malformed routes file: exit 1, `FILE: KEY: error:` or `FILE:LINE: error:`
     on standard error, no traceback, no output file."""
     routes = tmp_path / "bad.routes.toml"
-    routes.write_text(NO_COPPER + "\n[[trace]]\nnet = \"sw\"\nlayer = \"top\"\nwidth = -1\npoints = [[0,0],[1,0]]\n")
+    routes.write_text(NO_COPPER
+                      + "\n[[trace]]\nnet = \"sw\"\nlayer = \"top\"\nwidth = -1\npoints = [[0,0],[1,0]]\n")
     out = tmp_path / "out.cir"
     r = _run("augment", str(DEMO / "buck.cir"), str(routes), "-o", str(out))
     assert r.returncode == 1

@@ -47,7 +47,7 @@ def progress_callback(quiet: bool) -> Any:
     if quiet:
         return None
     try:
-        from parasite.progress import make_progress  # type: ignore[attr-defined]
+        from parasite.progress import make_progress
     except ImportError:
         return None
     return make_progress()
