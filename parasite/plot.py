@@ -141,10 +141,13 @@ def net_order(graph: CopperGraph) -> np.ndarray:
 
 
 def _board_extent(graph: CopperGraph) -> tuple[float, float, float, float]:
-    """x0, x1, y0, y1 in mm of all copper and pins, with a margin."""
+    """x0, x1, y0, y1 in mm of the board's copper and pins, with a margin
+    (probe leads in space are drawn but do not widen the view)."""
     xs: list[float] = []
     ys: list[float] = []
     for s in graph.segments:
+        if s.kind == "probe":
+            continue
         r = s.width / 2
         for p in (s.start, s.end):
             xs += [p[0] - r, p[0] + r]
@@ -192,21 +195,24 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
 
     traces = [s for s in graph.segments if s.kind == "trace"]
     traces.sort(key=lambda s: (rank.get(s.layer or "", 0), s.index))
-    # Where trace segments meet, a disc under them fills the outer corner of a bend.
-    joints: dict[int, tuple[float, float, str]] = {}  # node -> (diameter, value, layer)
+    # Where trace segments meet at an angle, a disc under them fills the outer
+    # corner of the bend (collinear joints need none).
+    joints: dict[int, list[Segment]] = {}
     for s in traces:
-        for node in (s.node_from, s.node_to):
-            d, v, _ = joints.get(node, (math.inf, -math.inf, ""))
-            joints[node] = (min(d, s.width), max(v, values[s.index]), s.layer or "")
-    degree = np.bincount(np.concatenate([[s.node_from for s in traces],
-                                         [s.node_to for s in traces]]).astype(int),
-                         minlength=len(graph.nodes))
-    for node, (d, v, layer) in sorted(joints.items()):
-        if degree[node] < 2:
+        joints.setdefault(s.node_from, []).append(s)
+        joints.setdefault(s.node_to, []).append(s)
+    for node, meeting in sorted(joints.items()):
+        u = np.array([np.subtract(m.end[:2], m.start[:2]) / max(m.length, 1e-300)
+                      for m in meeting])
+        cross = np.abs(u[:, None, 0] * u[None, :, 1] - u[:, None, 1] * u[None, :, 0])
+        if len(meeting) < 2 or cross.max() < 1e-6:
             continue
+        layer = meeting[0].layer or ""
         p = graph.nodes[node].point
-        cmap = cmaps.get(layer, via_cmap)
-        ax.add_patch(Circle((1e3 * p[0], 1e3 * p[1]), 1e3 * d / 2, facecolor=shade(cmap, v),
+        v = max(values[m.index] for m in meeting)
+        d = min(m.width for m in meeting)
+        ax.add_patch(Circle((1e3 * p[0], 1e3 * p[1]), 1e3 * d / 2,
+                            facecolor=shade(cmaps.get(layer, via_cmap), v),
                             edgecolor="none", zorder=0.5 + rank.get(layer, 0)))
     for s in traces:
         cmap = cmaps.get(s.layer or "", via_cmap)

@@ -355,9 +355,11 @@ frequency = {frequency}
 def test_meshed_net_matches_ngspice_ac_of_the_augmented_netlist(tmp_path, frequency):
     """A ladder of three cells (four parallel rungs) plus a return trace: the
     loop value equals ngspice's Im(V/I)/omega and Re(V/I) of the augmented
-    netlist at the loop's frequency within 0.5% (the check asked for; the
-    difference is the coupling statements' rounding and pruning, which the
-    augmented netlist applies and the loop solver does not)."""
+    netlist at the loop's frequency. The issue asks for 0.5%; with every
+    coupling written (|k| >= 1e-6) the two agree to about 1e-11, so the test
+    holds them to 1e-6 (the netlist carries 10 significant digits, and the
+    writer may adjust the written matrix slightly to keep it positive
+    definite)."""
     from parasite.augment import augment_files
     from parasite.spice import run_ngspice
 
@@ -370,8 +372,8 @@ def test_meshed_net_matches_ngspice_ac_of_the_augmented_netlist(tmp_path, freque
     sim = run_ngspice(aug.netlist_bytes, base_dir=tmp_path)
     z = complex(np.asarray(sim.vector("v(a)"))[0])
     w = 2 * math.pi * f
-    assert loop.inductance == pytest.approx(z.imag / w, rel=5e-3)
-    assert loop.resistance == pytest.approx(z.real, rel=5e-3)
+    assert loop.inductance == pytest.approx(z.imag / w, rel=1e-6)
+    assert loop.resistance == pytest.approx(z.real, rel=1e-6)
     # There is a mesh: the division is not the tree's single path. Four rungs
     # carry current.
     rungs = [s.id for s in inputs.graph.segments if s.source in
