@@ -394,13 +394,21 @@ def loop_results(
 
     ``L`` (N x N, H) and ``R`` (N, ohm) are the segments' partial inductance
     matrix and resistances. ``frequency`` (Hz) applies to loops that give
-    none (None: the low-frequency limit). ``resistance_at(f)``, when given,
-    supplies the resistances at a loop's frequency (skin effect) instead of
-    ``R``. Raises :class:`geometry.errors.RoutesError` for a loop that names an
-    unknown terminal or a path that does not close.
+    none (None: the low-frequency limit). A loop with a frequency uses the
+    resistances at that frequency (skin effect estimate) from
+    ``resistance_at(f)``, by default :func:`parasite.extract.resistances` of the
+    graph's copper; ``R`` serves the low-frequency limit. Raises
+    :class:`geometry.errors.RoutesError` for a loop that names an unknown
+    terminal or a path that does not close.
     """
     L = np.asarray(L, dtype=float)
     R = np.asarray(R, dtype=float)
+    if resistance_at is None and len(graph.segments):
+        from parasite.extract import resistances
+
+        def resistance_at(f: float) -> np.ndarray:
+            return resistances(graph.arrays, graph.routes.copper, f)
+
     results = []
     for spec in graph.routes.loops:
         f = spec.frequency if spec.frequency is not None else frequency

@@ -55,16 +55,12 @@ def write(tmp_path: Path, name: str, text: str) -> str:
 
 
 def run_loops(netlist: str, routes: str):
-    from parasite.extract import resistances
     from parasite.loops import loop_results
     from parasite.pipeline import extract, load_inputs
 
     inputs = load_inputs(netlist, routes)
     ex = extract(inputs)
-    results = loop_results(
-        inputs.graph, inputs.netlist, ex.L, ex.R,
-        resistance_at=lambda f: resistances(inputs.graph.arrays, inputs.routes.copper, f),
-    )
+    results = loop_results(inputs.graph, inputs.netlist, ex.L, ex.R)
     return inputs, ex, {r.name: r for r in results}
 
 

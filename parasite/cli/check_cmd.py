@@ -38,7 +38,6 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
     Loop inductances are estimates from closed-form formulas; leave a margin
     and confirm by measurement.
     """
-    from parasite.extract import resistances
     from parasite.loops import format_loop_table, loop_results
     from parasite.outputs import write_output
     from parasite.pipeline import extract, load_inputs
@@ -48,11 +47,7 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
         click.echo(f"{routes}: warning: no [[loop]] entries, nothing to check", err=True)
         return
     extraction = extract(inputs, progress=progress_callback(quiet))
-    arrays, copper = inputs.graph.arrays, inputs.routes.copper
-    results = loop_results(
-        inputs.graph, inputs.netlist, extraction.L, extraction.R,
-        resistance_at=lambda f: resistances(arrays, copper, f) if len(arrays) else extraction.R,
-    )
+    results = loop_results(inputs.graph, inputs.netlist, extraction.L, extraction.R)
     write_output("-", format_loop_table(results).encode())
     over = [r for r in results if r.over_limit]
     for r in over:

@@ -25,7 +25,6 @@ from parasite.cli.options import netlist_arg, progress_callback, quiet_opt, rout
 def plot(netlist: str, routes: str, output: str, loop_name: str | None, couplings: bool,
          quiet: bool) -> None:
     """Draw the copper of NETLIST + ROUTES from above into a PNG or SVG file."""
-    from parasite.extract import resistances
     from parasite.loops import loop_results
     from parasite.outputs import check_output_path, write_output
     from parasite.pipeline import extract, load_inputs
@@ -51,11 +50,7 @@ def plot(netlist: str, routes: str, output: str, loop_name: str | None, coupling
     extraction = extract(inputs, progress=progress_callback(quiet))
     chosen = None
     if loop_name is not None:
-        arrays, copper = inputs.graph.arrays, inputs.routes.copper
-        results = loop_results(
-            inputs.graph, inputs.netlist, extraction.L, extraction.R,
-            resistance_at=lambda f: resistances(arrays, copper, f) if len(arrays) else extraction.R,
-        )
+        results = loop_results(inputs.graph, inputs.netlist, extraction.L, extraction.R)
         chosen = next(r for r in results if r.name == loop_name)
     data = plot_bytes(inputs.graph, extraction.L, fmt, loop=chosen, couplings=couplings)
     write_output(output, data, [netlist, routes])
