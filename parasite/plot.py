@@ -214,12 +214,13 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
         ax.add_patch(Circle((1e3 * p[0], 1e3 * p[1]), 1e3 * d / 2,
                             facecolor=shade(cmaps.get(layer, via_cmap), v),
                             edgecolor="none", zorder=0.5 + rank.get(layer, 0)))
+    edge = 0.3 if len(traces) <= 300 else 0.0  # outlines would hatch a dense board
     for s in traces:
         cmap = cmaps.get(s.layer or "", via_cmap)
         outline = 1e3 * bar_outline(s.start, s.end, s.width)
         z = 1.0 + rank.get(s.layer or "", 0)
         ax.add_patch(Polygon(outline, closed=True, facecolor=shade(cmap, values[s.index]),
-                             edgecolor=cmap(1.0), linewidth=0.3, zorder=z,
+                             edgecolor=cmap(1.0), linewidth=edge, zorder=z,
                              gid=f"segment:{s.id}"))
         if rank.get(s.layer or "", 0) < top_rank:  # copper under other layers: dashed outline on top
             ax.add_patch(Polygon(outline, closed=True, fill=False, edgecolor=cmap(1.0),
