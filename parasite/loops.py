@@ -529,3 +529,33 @@ def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]
         ]
         lines.append("  ".join(cells).rstrip())
     return "\n".join(lines) + "\n"
+
+
+def format_loop_contributors(
+    results: Sequence[LoopResult], top: int = 5, graph: CopperGraph | None = None
+) -> str:
+    """For each loop, its ``top`` largest segment terms and pair terms with their
+    share of the loop inductance, as aligned text (what to move first). With
+    ``graph``, each segment also names the routes-file entry it comes from."""
+    where: dict[str, str] = {}
+    if graph is not None:
+        where = {s.id: s.name or s.source for s in graph.segments}
+    blocks = []
+    for r in results:
+
+        def share(x: float, r: LoopResult = r) -> str:
+            return f"{100 * x / r.inductance:.0f}%" if r.inductance > 0 else "-"
+
+        rows = [("segment", "term", "share", "entry" if where else "")]
+        rows += [(sid, engineering(t, "H"), share(t), where.get(sid, ""))
+                 for sid, t in r.contributors[:top]]
+        rows += [(f"{a} + {b}", engineering(t, "H"), share(t), "mutual")
+                 for a, b, t in r.pair_contributors[:top]]
+        widths = [max(len(row[c]) for row in rows) for c in range(4)]
+        lines = [f"{r.name}: {engineering(r.inductance, 'H')}, largest terms"]
+        for row in rows:
+            cells = (row[0].ljust(widths[0]), row[1].rjust(widths[1]),
+                     row[2].rjust(widths[2]), row[3])
+            lines.append(("  " + "  ".join(cells)).rstrip())
+        blocks.append("\n".join(lines))
+    return "\n\n".join(blocks) + "\n" if blocks else ""

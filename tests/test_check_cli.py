@@ -52,6 +52,12 @@ def test_over_budget_exits_3_naming_loop_value_and_limit(tmp_path):
     p = run(tmp_path, "check", net, routes, "--quiet")
     assert p.returncode == 3
     assert " OVER " in p.stdout
+    # What to move first: the largest terms, led by the uncut 39.5 mm bottom side.
+    block = p.stdout.split("rect: ")[1].splitlines()
+    assert block[0].endswith("largest terms")
+    assert block[1].split() == ["segment", "term", "share", "entry"]
+    assert block[2].split()[0] == "b.3" and block[2].split()[-1] == "trace[1]"
+    assert sum(1 for line in block if line.endswith("mutual")) == 3
     line = p.stderr.strip()
     assert line.startswith("board.routes.toml:")
     assert "loop 'rect' is over its limit: " in line

@@ -1,9 +1,10 @@
 """``parasite check``: loop budgets, for a makefile.
 
-Prints the loop table on standard output; for every loop over its limit, a
-line ``ROUTES:LINE: loop 'NAME' is over its limit: VALUE > LIMIT`` on standard
-error, and exit code 3. Exit 0 when every loop with a limit is within it, 1
-when the input is in error.
+Prints the loop table on standard output, and for the loops over their limit
+their largest segment and pair terms. For every loop over its limit, a line
+``ROUTES:LINE: loop 'NAME' is over its limit: VALUE > LIMIT`` goes to
+standard error and the exit code is 3. Exit 0 when every loop with a limit is
+within it, 1 when the input is in error.
 """
 
 from __future__ import annotations
@@ -38,7 +39,7 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
     Loop inductances are estimates from closed-form formulas; leave a margin
     and confirm by measurement.
     """
-    from parasite.loops import format_loop_table, loop_results
+    from parasite.loops import format_loop_contributors, format_loop_table, loop_results
     from parasite.outputs import write_output
     from parasite.pipeline import extract, load_inputs
 
@@ -48,8 +49,11 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
         return
     extraction = extract(inputs, progress=progress_callback(quiet))
     results = loop_results(inputs.graph, inputs.netlist, extraction.L, extraction.R)
-    write_output("-", format_loop_table(results).encode())
     over = [r for r in results if r.over_limit]
+    text = format_loop_table(results)
+    if over:  # what to move first
+        text += "\n" + format_loop_contributors(over, top=3, graph=inputs.graph)
+    write_output("-", text.encode())
     for r in over:
         assert r.limit is not None
         value, limit = _pair(r.inductance, r.limit)
