@@ -341,9 +341,11 @@ def _loop_network(
     injection = np.zeros(n_nodes)
     nets: set[str] = set()
     hops: list[tuple[int, _Stop, _Stop]] = []
+    through_element = False
     for j, a in enumerate(stops):
         b = stops[(j + 1) % len(stops)]
         if a.element == b.element:  # through the element: it carries the loop current
+            through_element = True
             injection[a.node] -= 1.0
             injection[b.node] += 1.0
         elif a.net == b.net:
@@ -356,7 +358,10 @@ def _loop_network(
                 f"(net {b.net!r}): consecutive terminals must be on the same net (the path runs "
                 "through its copper) or of the same element (the path runs through it)",
             )
-    if not injection.any() and hops:
+    # The check is on the hops, not on the injection: element hops between the same
+    # two nodes cancel there (two elements between the same two copper-less nets),
+    # and then no copper carries loop current and the loop's copper inductance is 0.
+    if not through_element:
         raise _routes_error(
             spec, graph.routes.path, f"loop[{spec.index}].path",
             f"loop {spec.name!r} never passes through an element, so no current flows in it; "
