@@ -536,28 +536,67 @@ def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]
     return "\n".join(lines) + "\n"
 
 
+def _contributor_rows(
+    r: LoopResult | Mapping[str, Any],
+) -> tuple[str, float, list[tuple[str, float]], list[tuple[str, str, float]], int | None]:
+    """Name, inductance, segment terms, pair terms of one loop (a
+    :class:`LoopResult` or its JSON dict), and the number of segments that carry
+    loop current (None when only the dict's largest terms are known)."""
+    if isinstance(r, LoopResult):
+        return (r.name, r.inductance, list(r.contributors), list(r.pair_contributors),
+                len(r.contributors))
+    segs = [(str(c["segment"]), float(c["inductance"])) for c in r.get("contributors") or []]
+    pairs = [(str(c["a"]), str(c["b"]), float(c["inductance"]))
+             for c in r.get("pair_contributors") or []]
+    return str(r["name"]), float(r["inductance"]), segs, pairs, None
+
+
 def format_loop_contributors(
-    results: Sequence[LoopResult], top: int = 5, graph: CopperGraph | None = None
+    results: Sequence[LoopResult] | Sequence[Mapping[str, Any]],
+    top: int = 5,
+    graph: CopperGraph | None = None,
+    *,
+    where: Mapping[str, str] | None = None,
 ) -> str:
     """For each loop, its ``top`` largest segment terms and pair terms with their
-    share of the loop inductance, as aligned text (what to move first). With
-    ``graph``, each segment also names the routes-file entry it comes from."""
-    where: dict[str, str] = {}
+    share of the loop inductance, as aligned text (what to move first).
+
+    ``results`` are :class:`LoopResult` objects or the dicts of
+    :func:`loop_result_dict` (which keep only the largest terms). When more
+    segments carry loop current than are shown, a ``rest of the copper`` row
+    gives the loop inductance minus the terms shown, so that the segment rows
+    add up to the loop's value. Pair terms (``mutual``) are another split of the
+    same value (self terms plus pair terms) and are not part of that sum. With
+    ``graph`` (or ``where``: segment id -> entry name), each segment also names
+    the routes-file entry it comes from."""
+    entries: dict[str, str] = {}
     if graph is not None:
-        where = {s.id: s.name or s.source for s in graph.segments}
+        entries = {s.id: s.name or s.source for s in graph.segments}
+    if where is not None:
+        entries.update(where)
     blocks = []
     for r in results:
+        name, value, segs, pairs, carrying = _contributor_rows(r)
 
-        def share(x: float, r: LoopResult = r) -> str:
-            return f"{100 * x / r.inductance:.0f}%" if r.inductance > 0 else "-"
+        def share(x: float, value: float = value) -> str:
+            return f"{100 * x / value:.0f}%" if value > 0 else "-"
 
-        rows = [("segment", "term", "share", "entry" if where else "")]
-        rows += [(sid, engineering(t, "H"), share(t), where.get(sid, ""))
-                 for sid, t in r.contributors[:top]]
-        rows += [(f"{a} + {b}", engineering(t, "H"), share(t), "mutual")
-                 for a, b, t in r.pair_contributors[:top]]
+        if not segs:
+            blocks.append(f"{name}: {engineering(value, 'H')}, no copper carries its current")
+            continue
+        shown = segs[:top]
+        rows = [("segment", "term", "share", "entry" if entries else "")]
+        rows += [(sid, engineering(t, "H"), share(t), entries.get(sid, "")) for sid, t in shown]
+        rest = value - math.fsum(t for _, t in shown)
+        # a dict keeps only the largest terms: whether more copper carries current shows in the sum
+        more = (carrying > top if carrying is not None
+                else len(segs) > top or abs(rest) > 1e-9 * abs(value))
+        if more:
+            label = "rest of the copper" + ("" if carrying is None else f" ({carrying - top} segments)")
+            rows.append((label, engineering(rest, "H"), share(rest), ""))
+        rows += [(f"{a} + {b}", engineering(t, "H"), share(t), "mutual") for a, b, t in pairs[:top]]
         widths = [max(len(row[c]) for row in rows) for c in range(4)]
-        lines = [f"{r.name}: {engineering(r.inductance, 'H')}, largest terms"]
+        lines = [f"{name}: {engineering(value, 'H')}, largest terms"]
         for row in rows:
             cells = (row[0].ljust(widths[0]), row[1].rjust(widths[1]),
                      row[2].rjust(widths[2]), row[3])

@@ -112,9 +112,10 @@ def _table(headers: list[str], rows: list[list[str]], right: set[int] | None = N
     return [line(headers), line(["-" * w for w in widths])] + [line(r) for r in rows]
 
 
-def report_text(report: dict[str, Any], max_couplings: int = 20) -> str:
-    """The report as aligned text tables for a person."""
-    from parasite.loops import format_loop_table
+def report_text(report: dict[str, Any], max_couplings: int = 20, top_terms: int = 5) -> str:
+    """The report as aligned text tables for a person. After the loop table, each
+    loop's ``top_terms`` largest segment and pair terms (what to move first)."""
+    from parasite.loops import format_loop_contributors, format_loop_table
 
     out: list[str] = [f"parasite report: {report['netlist']} + {report['routes']}", ""]
     segs = report["segments"]
@@ -144,7 +145,11 @@ def report_text(report: dict[str, Any], max_couplings: int = 20) -> str:
                       [[c["a"], c["b"], f"{1e9 * c['mutual']:.4f}", f"{c['k']:+.4f}"]
                        for c in cpl[:max_couplings]], right={2, 3})
     if report["loops"]:
-        out += ["", "Loops:", format_loop_table(report["loops"])]
+        out += ["", "Loops:", format_loop_table(report["loops"]).rstrip("\n")]
+        where = {s["id"]: s["name"] or s["source"] for s in segs}
+        out += ["", "Largest terms of each loop (segment terms add up to the loop inductance; "
+                "pair terms are the mutual parts of the same value):", ""]
+        out.append(format_loop_contributors(report["loops"], top=top_terms, where=where).rstrip("\n"))
     if report.get("probes"):
         from parasite.probes import format_probe_table
 
