@@ -4,11 +4,20 @@ Partial element equivalent circuit method (A. E. Ruehli, "Inductance
 calculations in a complex integrated circuit environment", IBM J. Res. Dev.
 16(5), 1972; "Equivalent circuit models for three-dimensional multiconductor
 systems", IEEE Trans. MTT 22(3), 1974). SI units throughout.
+
+Public API::
+
+    inductance_matrix(arrays, *, progress=None) -> (N, N) H, symmetric, images included
+    self_inductances(arrays) -> (N,) H, without images
+    resistances(arrays, copper, frequency=None) -> (N,) ohm (None: DC)
+    skin_depth(resistivity, frequency, mu_r=1.0) -> m
+    choose_couplings(L, min_coupling, *, margin=1e-3) -> CouplingSelection
+    format_k(k) -> str   (a coupling coefficient as written into the netlist)
 """
 
 from parasite.extract.couplings import CouplingSelection, choose_couplings, format_k
-from parasite.extract.matrix import inductance_matrix
+from parasite.extract.matrix import inductance_matrix, self_inductances
 from parasite.extract.resistance import resistances, skin_depth
 
 __all__ = ["CouplingSelection", "choose_couplings", "format_k", "inductance_matrix", "resistances",
-           "skin_depth"]
+           "self_inductances", "skin_depth"]

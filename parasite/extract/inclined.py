@@ -7,10 +7,13 @@ Neumann's formula in closed form over all filament pairs
 filament-subdivision form of the partial element method (Ruehli, "Equivalent
 circuit models for three-dimensional multiconductor systems", IEEE Trans. MTT
 22(3), 1974). The order n is chosen from the distance between the conductors
-relative to their section size (:data:`ORDER_TABLE`), so that the relative error
-stays near 1e-4 (checked in tests/test_extract_inclined.py against scipy
-cubature over both sections). A round section enters as the square with the
-same second moment (side sqrt(3 (r_o^2 + r_i^2))), exact to second order.
+relative to their section size (:data:`ORDER_TABLE`): relative error below 1e-4
+for separated conductors; for conductors touching at a bend (the filament
+integrand has kinks there and the rule converges only algebraically) about
+2e-4 of the mutual term, i.e. a few 1e-5 of the self terms (checked in
+tests/test_extract_inclined.py against scipy cubature over both sections). A
+round section enters as the square with the same second moment (side
+sqrt(3 (r_o^2 + r_i^2))), exact to second order.
 
 Lengths in m, inductance in H.
 """
@@ -21,7 +24,7 @@ import numpy as np
 
 from parasite.extract.filaments import filament_mutual
 
-ORDER_TABLE: tuple[tuple[float, int], ...] = ((40.0, 1), (12.0, 2), (4.0, 3), (1.0, 5), (0.0, 8))
+ORDER_TABLE: tuple[tuple[float, int], ...] = ((20.0, 1), (0.5, 2), (0.1, 4), (0.0, 8))
 """(minimum of distance / section size, Gauss-Legendre order per section dimension)."""
 
 _CHUNK = 1_500_000  # filament pairs evaluated at once
