@@ -31,38 +31,60 @@ from geometry.model import SegmentArrays  # noqa: E402
 def generated_board(n: int, *, seed: int = 1, plane: bool = True) -> SegmentArrays:
     """An invented board with ``n`` segments: random polylines on two signal layers
     (0, 45, 90 degree and arbitrary turns, 2 to 12 mm pieces, 0.15 to 2 mm wide,
-    35 um copper) over 100 x 100 mm, and about 8% via segments (0.3 mm barrels,
-    25 um wall) between the layers; with ``plane``, a return plane face at z = 0.
+    35 um copper) over a square board sized for about 1 segment per 10 mm^2, with no
+    two traces of one layer closer than 0.1 mm edge to edge (as a design rule check
+    would demand), and about 8% via segments (0.3 mm barrels, 25 um wall, at least
+    1 mm apart) between the layers; with ``plane``, a return plane face at z = 0.
     """
+    from parasite.extract.inclined import segment_distance
+
     rng = np.random.default_rng(seed)
     n_via = max(1, n // 12)
     n_tr = n - n_via
+    side = np.sqrt(10e-6 * n)  # m
     layers = np.array([1.565e-3, 0.2e-3])  # bottom faces of two signal layers (m)
     t = 35e-6
-    starts, ends, widths, layer_z = [], [], [], []
-    while len(starts) < n_tr:
-        pts = rng.uniform(5e-3, 95e-3, 2)
+    cap = n_tr + 16
+    s_arr, e_arr = np.zeros((cap, 3)), np.zeros((cap, 3))
+    w_arr = np.zeros(cap)
+    k = 0
+    while k < n_tr:
+        pts = rng.uniform(0.05 * side, 0.95 * side, 2)
         ang = rng.choice([0.0, np.pi / 2, np.pi / 4, -np.pi / 4, rng.uniform(0, np.pi)])
         w = rng.choice([0.15e-3, 0.25e-3, 0.5e-3, 1e-3, 2e-3])
         z = layers[rng.integers(2)] + t / 2
+        first = k
         for _ in range(int(rng.integers(3, 12))):
-            if len(starts) >= n_tr:
+            if k >= n_tr:
                 break
             step = rng.uniform(2e-3, 12e-3)
             nxt = pts + step * np.array([np.cos(ang), np.sin(ang)])
-            starts.append((pts[0], pts[1], z))
-            ends.append((nxt[0], nxt[1], z))
-            widths.append(w)
-            layer_z.append(z)
+            p, q = np.array([pts[0], pts[1], z]), np.array([nxt[0], nxt[1], z])
+            others = np.nonzero(s_arr[:k, 2] == z)[0]
+            others = others[others != k - 1] if k > first else others
+            if others.size:
+                dist = segment_distance(np.repeat(p[None], others.size, 0),
+                                        np.repeat(q[None], others.size, 0),
+                                        s_arr[others], e_arr[others])
+                if np.any(dist < 0.5 * (w + w_arr[others]) + 0.1e-3):
+                    break
+            if np.any(nxt < 0) or np.any(nxt > side):
+                break
+            s_arr[k], e_arr[k], w_arr[k] = p, q, w
+            k += 1
             pts = nxt
             ang += rng.choice([0.0, np.pi / 4, -np.pi / 4, np.pi / 2, -np.pi / 2,
                                rng.uniform(-1.0, 1.0)])
-    xy = rng.uniform(5e-3, 95e-3, (n_via, 2))
+    xy = np.zeros((0, 2))
+    while xy.shape[0] < n_via:
+        cand = rng.uniform(0.05 * side, 0.95 * side, 2)
+        if xy.shape[0] == 0 or np.min(np.hypot(*(xy - cand).T)) >= 1e-3:
+            xy = np.vstack([xy, cand])
     z0, z1 = layers[1] + t / 2, layers[0] + t / 2
-    start = np.concatenate([np.array(starts), np.column_stack([xy, np.full(n_via, z0)])])
-    end = np.concatenate([np.array(ends), np.column_stack([xy, np.full(n_via, z1)])])
+    start = np.concatenate([s_arr[:n_tr], np.column_stack([xy, np.full(n_via, z0)])])
+    end = np.concatenate([e_arr[:n_tr], np.column_stack([xy, np.full(n_via, z1)])])
     rnd = np.concatenate([np.zeros(n_tr, bool), np.ones(n_via, bool)])
-    width = np.concatenate([np.array(widths), np.full(n_via, 0.3e-3)])
+    width = np.concatenate([w_arr[:n_tr], np.full(n_via, 0.3e-3)])
     thickness = np.where(rnd, 0.3e-3, t)
     radius = np.where(rnd, 0.15e-3, 0.0)
     inner = np.where(rnd, 0.125e-3, 0.0)

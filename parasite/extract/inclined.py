@@ -67,26 +67,59 @@ def _grid(n: int) -> tuple[np.ndarray, np.ndarray]:
     return nodes, weights
 
 
+SAME_LAYER_RULES: dict[int, tuple[int, int]] = {2: (2, 2), 4: (6, 2), 8: (12, 3)}
+"""order -> (points across the width, points over the height difference) for bars of
+one layer (:func:`_same_layer_grids`)."""
+
+
+def _same_layer_grids(n_w: int, n_z: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Rules for two bars of one layer (same height and thickness t): the mutual
+    inductance depends on the thicknesses only through the height difference dz of
+    the two filaments, whose density is triangular, (t - |dz|)/t^2 on [-t, t], and is
+    even in dz. So bar a gets n_w width points at its mid-height and bar b gets n_w
+    width points times n_z points dz/t in [0, 1] with weights 2 (1 - s) (Gauss-Legendre
+    on [0, 1], the kink of the integrand at dz = 0 sitting at an end of the interval).
+    Returns nodes and weights of a, then of b (nodes as fractions of width, thickness)."""
+    x, w = np.polynomial.legendre.leggauss(n_w)
+    x, w = 0.5 * x, 0.5 * w
+    z, wz = np.polynomial.legendre.leggauss(n_z)
+    z, wz = 0.5 * (z + 1.0), 0.5 * wz * 2.0 * (1.0 - 0.5 * (z + 1.0))
+    wz = wz / wz.sum()
+    nodes_a = np.stack([x, np.zeros_like(x)], axis=-1)
+    nodes_b = np.stack(np.meshgrid(x, z, indexing="ij"), axis=-1).reshape(-1, 2)
+    weights_b = np.outer(w, wz).reshape(-1)
+    return nodes_a, w, nodes_b, weights_b
+
+
 def inclined_mutual(sa: np.ndarray, ea: np.ndarray, wa_dir: np.ndarray, ta_dir: np.ndarray,
                     wa: np.ndarray, ta: np.ndarray, sb: np.ndarray, eb: np.ndarray,
                     wb_dir: np.ndarray, tb_dir: np.ndarray, wb: np.ndarray, tb: np.ndarray,
-                    order: np.ndarray) -> np.ndarray:
+                    order: np.ndarray, same_layer: np.ndarray | None = None) -> np.ndarray:
     """Mutual inductance (H) of pairs of bars at any angle, by ``order`` x ``order``
     Gauss-Legendre filaments per section (per pair). Points (n, 3) m, unit vectors
-    along width and thickness (n, 3), dimensions (n,) m."""
+    along width and thickness (n, 3), dimensions (n,) m. Pairs flagged ``same_layer``
+    (horizontal bars at one height with one thickness, thickness along +z for both)
+    use the cheaper equivalent rule of :func:`_same_layer_grids` when order >= 2."""
     out = np.zeros(sa.shape[0])
-    for n in np.unique(order):
-        idx = np.nonzero(order == n)[0]
-        nodes, weights = _grid(int(n))
-        k = nodes.shape[0]
-        ww = np.outer(weights, weights).reshape(-1)  # (k*k,)
-        step = max(1, _CHUNK // (k * k))
+    if same_layer is None:
+        same_layer = np.zeros(sa.shape[0], dtype=bool)
+    key = order * 2 + (same_layer & (order >= 2))
+    for kv in np.unique(key):
+        n, flat = int(kv) // 2, bool(kv % 2)
+        idx = np.nonzero(key == kv)[0]
+        if flat:
+            nodes_a, w_a, nodes_b, w_b = _same_layer_grids(*SAME_LAYER_RULES.get(n, (n, 2)))
+        else:
+            nodes_a, w_a = _grid(n)
+            nodes_b, w_b = nodes_a, w_a
+        ww = np.outer(w_a, w_b).reshape(-1)
+        step = max(1, _CHUNK // ww.size)
         for c0 in range(0, idx.size, step):
             sel = idx[c0:c0 + step]
-            oa = (nodes[None, :, 0, None] * (wa[sel, None, None] * wa_dir[sel, None, :])
-                  + nodes[None, :, 1, None] * (ta[sel, None, None] * ta_dir[sel, None, :]))
-            ob = (nodes[None, :, 0, None] * (wb[sel, None, None] * wb_dir[sel, None, :])
-                  + nodes[None, :, 1, None] * (tb[sel, None, None] * tb_dir[sel, None, :]))
+            oa = (nodes_a[None, :, 0, None] * (wa[sel, None, None] * wa_dir[sel, None, :])
+                  + nodes_a[None, :, 1, None] * (ta[sel, None, None] * ta_dir[sel, None, :]))
+            ob = (nodes_b[None, :, 0, None] * (wb[sel, None, None] * wb_dir[sel, None, :])
+                  + nodes_b[None, :, 1, None] * (tb[sel, None, None] * tb_dir[sel, None, :]))
             pa = (sa[sel, None, None, :] + oa[:, :, None, :])
             qa = (ea[sel, None, None, :] + oa[:, :, None, :])
             pb = (sb[sel, None, None, :] + ob[:, None, :, :])

@@ -29,7 +29,9 @@ the same number when both mirror in the same plane. A segment without a plane
 
 from __future__ import annotations
 
+import os
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -48,13 +50,17 @@ from parasite.extract.round import (
 
 PERPENDICULAR_COS = 1e-12
 PARALLEL_SIN = 1e-9
-BLOCK_PAIRS = 100_000  # pairs per vectorised block (bounds the temporaries to a few tens of MB)
+BLOCK_PAIRS = 200_000  # pairs per vectorised block (bounds the temporaries to a few tens of MB)
 
 
 FAR_RULES: tuple[tuple[float, int], ...] = ((3.5, 2), (2.0, 3), (1.5, 4), (1.2, 5))
 """(minimum of midpoint distance / longer length, Gauss-Legendre order along each
 centre line) for :func:`far_mutual`. Worst relative error of the line quadrature
 over random pairs at each bound: 8e-5, 2e-5, 1e-5, 4e-5 (tests/test_extract_matrix.py)."""
+
+PLAIN_SECTION_RATIO = 20.0
+"""Pairs whose least possible distance is at least this many section sizes skip the
+section correction (its relative size is below (h/D)^2/24 ~ 1e-4)."""
 
 FAR_SECTION_RATIO = 4.0
 """A pair uses :func:`far_mutual` only if its least possible distance (midpoint distance
@@ -151,13 +157,13 @@ def _mutual(c: _Conductors, ia: np.ndarray, ib: np.ndarray) -> np.ndarray:
     clear = dm - 0.5 * (c.length[ia] + c.length[ib]) >= FAR_SECTION_RATIO * np.maximum(
         c.size[ia], c.size[ib])
     todo = live.copy()
-    for ratio, order in FAR_RULES:
+    for ratio, n_gl in FAR_RULES:
         sel = todo & clear & (dm >= ratio * lmax)
         if np.any(sel):
             a, b = ia[sel], ib[sel]
             dirs = np.stack([c.w_dir[a], c.t_dir[a], c.w_dir[b], c.t_dir[b]], axis=1)
             var = np.stack([c.width[a], c.thickness[a], c.width[b], c.thickness[b]], axis=1)
-            out[sel] = far_mutual(c.mid[a], c.d[a], c.mid[b], c.d[b], order, dirs,
+            out[sel] = far_mutual(c.mid[a], c.d[a], c.mid[b], c.d[b], n_gl, dirs,
                                   var * var / 12.0)
             todo &= ~sel
     if not np.any(todo):
@@ -174,9 +180,12 @@ def _mutual(c: _Conductors, ia: np.ndarray, ib: np.ndarray) -> np.ndarray:
         a, b = ia[gen], ib[gen]
         dist = segment_distance(c.start[a], c.end[a], c.start[b], c.end[b])
         order = choose_order(dist, np.maximum(c.size[a], c.size[b]))
+        flat = (~c.round[a] & ~c.round[b] & (c.thickness[a] == c.thickness[b])
+                & (c.start[a][:, 2] == c.start[b][:, 2]) & (c.t_dir[a][:, 2] > 0.999999)
+                & (c.t_dir[b][:, 2] > 0.999999))
         res[gen] = inclined_mutual(c.start[a], c.end[a], c.w_dir[a], c.t_dir[a], c.width[a],
                                    c.thickness[a], c.start[b], c.end[b], c.w_dir[b], c.t_dir[b],
-                                   c.width[b], c.thickness[b], order)
+                                   c.width[b], c.thickness[b], order, flat)
     out[sub] = res
     return out
 
@@ -286,42 +295,100 @@ def inductance_matrix(arrays: SegmentArrays, *,
     if progress is not None:
         progress(done, total)
 
-    counts = np.arange(n - 1, 0, -1)  # pairs (i, j > i) of row i
-    row = 0
-    while row < n - 1:
-        cum = np.cumsum(counts[row:])
-        stop = row + max(1, int(np.searchsorted(cum, BLOCK_PAIRS, side="right")))
-        stop = min(stop, n - 1)
-        rows = np.arange(row, stop)
-        cnt = counts[row:stop]
-        i = np.repeat(rows, cnt)
-        first = np.repeat(np.cumsum(cnt) - cnt, cnt)
-        j = i + 1 + (np.arange(i.size) - first)
-        L_block = _pair_values(cond, i, j, img_index, mz)
-        L[i, j] = L_block
-        L[j, i] = L_block
-        done += i.size
-        if progress is not None:
-            progress(done, total)
-        row = stop
+    step = max(1, BLOCK_PAIRS // max(n, 1))
+
+    def work(r0: int) -> int:
+        rows = np.arange(r0, min(n - 1, r0 + step))
+        vals = _block_values(cond, rows, np.arange(r0 + 1, n), img_index, mz)
+        for k, i in enumerate(rows.tolist()):  # one Python step per row, not per pair
+            L[i, i + 1:] = vals[k, i - r0:]
+            L[i + 1:, i] = vals[k, i - r0:]
+        return int(np.sum(n - 1 - rows))
+
+    # numpy releases the GIL in its loops: blocks run on all cores; each block writes
+    # its own rows (right of the diagonal) and columns (below it), so they never overlap
+    starts = list(range(0, n - 1, step))
+    workers = min(len(starts), _workers())
+    if workers <= 1:
+        for r0 in starts:
+            done += work(r0)
+            if progress is not None:
+                progress(done, total)
+        return L
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        for count in pool.map(work, starts):
+            done += count
+            if progress is not None:
+                progress(done, total)
     return L
 
 
-def _pair_values(cond: _Conductors, i: np.ndarray, j: np.ndarray, img_index: np.ndarray,
-                 mz: np.ndarray) -> np.ndarray:
-    """L_ij for pairs i < j: direct term plus the symmetrised image terms."""
-    hi_, hj = img_index[i] >= 0, img_index[j] >= 0
-    same = hi_ & hj & (mz[i] == mz[j])
-    one_j = hj  # M(i, image j)
-    one_i = hi_ & ~same  # M(j, image i), needed only when the planes differ
-    ia = np.concatenate([i, i[one_j], j[one_i]])
-    ib = np.concatenate([j, img_index[j[one_j]], img_index[i[one_i]]])
-    m = _mutual(cond, ia, ib)
-    k = i.size
-    direct = m[:k]
-    img_j = np.zeros(k)
-    img_j[one_j] = m[k:k + int(one_j.sum())]
-    img_i = np.zeros(k)
-    img_i[one_i] = m[k + int(one_j.sum()):]
-    img_i = np.where(same, img_j, img_i)
+def _workers() -> int:
+    """Threads for the assembly: the cores this process may use."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def _block_values(cond: _Conductors, rows: np.ndarray, cols: np.ndarray,
+                  img_index: np.ndarray, mz: np.ndarray) -> np.ndarray:
+    """L_ij for rows x cols (dense block): direct term plus the symmetrised image terms."""
+    direct = _block_mutual(cond, rows, cols)
+    ci, ri = img_index[cols], img_index[rows]
+    hc, hr = ci >= 0, ri >= 0
+    if not (np.any(hc) or np.any(hr)):
+        return direct
+    img_j = np.zeros_like(direct)
+    if np.any(hc):
+        img_j[:, hc] = _block_mutual(cond, rows, ci[hc])
+    same = hr[:, None] & hc[None, :] & (mz[rows][:, None] == mz[cols][None, :])
+    img_i = np.where(same, img_j, 0.0)
+    need = hr[:, None] & ~same
+    if np.any(need):
+        rsel = np.nonzero(need.any(axis=1))[0]
+        # M(j, image i) = M(image i, j): rows are the images
+        part = _block_mutual(cond, ri[rsel], cols)
+        img_i[rsel] = np.where(need[rsel], part, img_i[rsel])
     return direct + IMAGE_SIGN * 0.5 * (img_j + img_i)
+
+
+def _block_mutual(c: _Conductors, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+    """Mutual inductance (H) of conductors rows x cols (dense block).
+
+    The bulk (pairs far apart compared with their lengths and 20 section sizes) is
+    evaluated densely with 2-point line quadrature, all bilinear quantities coming
+    from small matrix products; the remaining pairs go through :func:`_mutual`."""
+    ua, ub = c.u[rows], c.u[cols]
+    ma_, mb_ = c.mid[rows], c.mid[cols]
+    la, lb = c.length[rows][:, None], c.length[cols][None, :]
+    cos = ua @ ub.T
+    sa = np.einsum("ij,ij->i", ma_, ma_)[:, None]
+    sb = np.einsum("ij,ij->i", mb_, mb_)[None, :]
+    mm = np.maximum(sa + sb - 2.0 * (ma_ @ mb_.T), 0.0)  # |mid_a - mid_b|^2
+    m_ua = (
+        np.einsum("ij,ij->i", ma_, ua)[:, None] - (ua @ mb_.T))
+    m_ub = (ma_ @ ub.T) - np.einsum("ij,ij->i", mb_, ub)[None, :]
+    dm = np.sqrt(mm)
+    lmax = np.maximum(la, lb)
+    hmax = np.maximum(c.size[rows][:, None], c.size[cols][None, :])
+    live = np.abs(cos) >= PERPENDICULAR_COS
+    far = live & (dm >= FAR_RULES[0][0] * lmax) & (
+        dm - 0.5 * (la + lb) >= PLAIN_SECTION_RATIO * hmax)
+    x = 0.5 / np.sqrt(3.0)
+    ab = la * lb * cos
+    base = mm + (x * x) * (la * la + lb * lb)
+    pa = (2.0 * x) * la * m_ua
+    pb = (2.0 * x) * lb * m_ub
+    cross = (2.0 * x * x) * ab
+    with np.errstate(divide="ignore", invalid="ignore"):  # pairs not far: overwritten below
+        acc = 1.0 / np.sqrt(base + pa - pb - cross)
+        acc += 1.0 / np.sqrt(base + pa + pb + cross)
+        acc += 1.0 / np.sqrt(base - pa - pb + cross)
+        acc += 1.0 / np.sqrt(base - pa + pb - cross)
+    out = np.where(far, (0.25 * MU0_4PI) * ab * acc, 0.0)
+    rest = live & ~far
+    if np.any(rest):
+        ri, cj = np.nonzero(rest)
+        out[ri, cj] = _mutual(c, rows[ri], cols[cj])
+    return out

@@ -24,14 +24,17 @@ import math
 import numpy as np
 
 from geometry.model import Copper, SegmentArrays
+from parasite.errors import ExtractionError
 
 MU0 = 4e-7 * math.pi  # H/m
 
 
 def skin_depth(resistivity: float, frequency: float, mu_r: float = 1.0) -> float:
     """delta = sqrt(rho / (pi f mu0 mu_r)) in m; rho in ohm m, f in Hz (> 0)."""
-    if frequency <= 0:
-        raise ValueError(f"frequency must be > 0 Hz, got {frequency!r}")
+    if not (frequency > 0 and resistivity > 0 and mu_r > 0):
+        raise ExtractionError(
+            f"skin depth needs a positive frequency, resistivity and relative permeability; "
+            f"got {frequency!r} Hz, {resistivity!r} ohm*m, mu_r {mu_r!r}", key="frequency")
     return math.sqrt(resistivity / (math.pi * frequency * MU0 * mu_r))
 
 
