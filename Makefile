@@ -29,6 +29,13 @@ demo: ngspice venv
 	$(VENV)/bin/parasite report fixtures/demo/buck.cir fixtures/demo/buck.routes.toml
 	$(VENV)/bin/parasite ring fixtures/demo/buck.cir fixtures/demo/buck.routes.toml --node sw \
 	    --measured fixtures/demo/buck.measured.csv --plot $(OUT)/buck.ring.png
+	@echo; echo "== The same edges as probe sw-long-ground reads them (14 cm ground lead):"
+	$(VENV)/bin/parasite ring fixtures/demo/buck.cir fixtures/demo/buck.routes.toml --node sw \
+	    --probe sw-long-ground --plot $(OUT)/buck.probe-sw-long-ground.png
+	@echo; echo "== The same edges as probe sw-spring reads them (6 mm ground spring):"
+	$(VENV)/bin/parasite ring fixtures/demo/buck.cir fixtures/demo/buck.routes.toml --node sw \
+	    --probe sw-spring --plot $(OUT)/buck.probe-sw-spring.png
+	@echo; echo "Pictures in $(OUT)/: buck.ring.png, buck.probe-sw-long-ground.png, buck.probe-sw-spring.png"
 
 test: ngspice venv
 	$(PY) -m pytest

@@ -118,11 +118,16 @@ class NetOptions:
 class Instrument:
     """The input of the instrument at the end of a probe's leads: a resistance
     in parallel with a capacitance, between the tip lead's end and the ground
-    lead's end (see :data:`INSTRUMENT_PRESETS`)."""
+    lead's end (see :data:`INSTRUMENT_PRESETS`), optionally behind a series
+    ``damping`` resistance (from the tip lead's end to the R || C): the loss of
+    a real probe's tip network and cable, which damps the resonance of the
+    leads' inductance with the input capacitance. The reading is the voltage
+    across the whole input, damping resistance included."""
 
     resistance: float  # ohm
     capacitance: float  # F
     preset: str | None = None  # the preset's name, None when given as values
+    damping: float = 0.0  # ohm, series resistance in front of R || C; 0 = none
 
 
 INSTRUMENT_PRESETS: dict[str, Instrument] = {

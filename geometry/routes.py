@@ -19,7 +19,7 @@ Each kind of ``[[entry]]`` is parsed by its own function, registered in
 ``tip`` and ``ground`` contacts ``{ layer, at [, net] }``; ``tip_lead`` and
 ``ground_lead`` ``{ points = [[x, y, z], ...], radius }`` starting at their
 contact on the layer's top face; ``instrument``, ``"10x"``, ``"1x"`` or
-``{ resistance, capacitance }`` (docs/routes-file.md, "Probes").
+``{ resistance, capacitance [, damping] }`` (docs/routes-file.md, "Probes").
 """
 
 from __future__ import annotations
@@ -296,7 +296,9 @@ def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:
 _PROBE_KEYS = ("name", "tip", "ground", "tip_lead", "ground_lead", "instrument")
 _CONTACT_KEYS = ("layer", "at", "net")
 _LEAD_KEYS = ("points", "radius")
-_INSTRUMENT_KEYS = ("resistance", "capacitance")
+_INSTRUMENT_KEYS = ("resistance", "capacitance", "damping")
+_INSTRUMENT_REQUIRED = ("resistance", "capacitance")
+_INSTRUMENT_TABLE = "{ resistance = OHMS, capacitance = FARADS [, damping = OHMS] }"
 _PROBE_NAME = re.compile(r"[A-Za-z0-9_-]+")
 
 
@@ -350,15 +352,17 @@ def _instrument(ctx: Context, raw: Any, path: KeyPath) -> Instrument:
         key = raw.strip().lower()
         if key not in INSTRUMENT_PRESETS:
             ctx.fail(path, f"unknown instrument {raw!r}; accepted: {presets}, or a table "
-                           f"{{ resistance = OHMS, capacitance = FARADS }}")
+                           f"{_INSTRUMENT_TABLE}")
         return INSTRUMENT_PRESETS[key]
     if not isinstance(raw, dict):
-        ctx.fail(path, f"must be a preset ({presets}) or a table {{ resistance = OHMS, "
-                       f"capacitance = FARADS }}; got {_describe(raw)}")
-    t = ctx.table(raw, path, _INSTRUMENT_KEYS, _INSTRUMENT_KEYS)
+        ctx.fail(path, f"must be a preset ({presets}) or a table {_INSTRUMENT_TABLE}; "
+                       f"got {_describe(raw)}")
+    t = ctx.table(raw, path, _INSTRUMENT_KEYS, _INSTRUMENT_REQUIRED)
     r = _spice_value(ctx, t["resistance"], path + ("resistance",), "ohm")
     c = _spice_value(ctx, t["capacitance"], path + ("capacitance",), "F")
-    return Instrument(resistance=r, capacitance=c, preset=None)
+    d = (_spice_value(ctx, t["damping"], path + ("damping",), "ohm")
+         if "damping" in t else 0.0)
+    return Instrument(resistance=r, capacitance=c, preset=None, damping=d)
 
 
 def parse_probe_entry(ctx: Context, raw: Any, index: int) -> Probe:
@@ -366,8 +370,9 @@ def parse_probe_entry(ctx: Context, raw: Any, index: int) -> Probe:
     ``{ layer, at [, net] }`` (on the layer's top face); ``tip_lead`` and
     ``ground_lead`` ``{ points = [[x, y, z], ...], radius }``, each starting at
     its contact and ending at the instrument; ``instrument``, a preset name
-    (:data:`geometry.model.INSTRUMENT_PRESETS`) or ``{ resistance, capacitance }``
-    (numbers in ohm and F, or SPICE-style values such as ``"12p"``)."""
+    (:data:`geometry.model.INSTRUMENT_PRESETS`) or ``{ resistance, capacitance
+    [, damping] }`` (numbers in ohm and F, or SPICE-style values such as
+    ``"12p"``; ``damping``, a series resistance in front of the input)."""
     path: KeyPath = ("probe", index)
     t = ctx.table(raw, path, _PROBE_KEYS, _PROBE_KEYS)
     name = ctx.string(t["name"], path + ("name",), "a probe name (letters, digits, '_', '-')")

@@ -61,7 +61,7 @@ import numpy as np
 from parasite.naming import NameAllocator, sanitize
 
 if TYPE_CHECKING:
-    from geometry.model import CopperGraph, Probe
+    from geometry.model import CopperGraph, Instrument, Probe
     from parasite.branches import Branch
     from parasite.extract.couplings import CouplingSelection
 
@@ -111,13 +111,36 @@ def kept_nodes(graph: CopperGraph) -> set[int]:
 
 def end_node_names(graph: CopperGraph, allocator: NameAllocator) -> dict[int, str]:
     """Netlist names of the lead ends: ``probe_<name>_tip`` (the reading's plus
-    side) and ``probe_<name>_gnd`` (its minus side), made unique by ``allocator``."""
+    side) and ``probe_<name>_gnd`` (its minus side), made unique by ``allocator``.
+
+    For an instrument with a ``damping`` resistance the name of the node inside
+    the input (between that resistance and the R || C), ``<tip name>_in``
+    (:func:`inner_node_name`), is reserved too: the tip's name is chosen so that
+    both are free."""
     names: dict[int, str] = {}
     for pn in probe_nodes(graph):
         base = sanitize(pn.probe.name)
-        names[pn.tip_end] = allocator.new(f"probe_{base}_tip")
+        tip = allocator.new(f"probe_{base}_tip")
+        if pn.probe.instrument.damping > 0:
+            # allocator.new returns its argument only when that name is free (and reserves it)
+            while allocator.new(inner_node_name(tip)) != inner_node_name(tip):
+                tip = allocator.new(f"probe_{base}_tip")
+        names[pn.tip_end] = tip
         names[pn.ground_end] = allocator.new(f"probe_{base}_gnd")
     return names
+
+
+def inner_node_name(tip_name: str) -> str:
+    """The node between an instrument's damping resistance and its R || C."""
+    return f"{tip_name}_in"
+
+
+def reading_plus(tip_name: str, instrument: Instrument) -> str:
+    """The plus node of the reading: the tip lead's end, or for an instrument
+    with a damping resistance the node behind it (the reading is the voltage
+    across the R || C, as the instrument sees it, not across the damping
+    resistance too: that would add ``damping * C dV/dt`` on every edge)."""
+    return inner_node_name(tip_name) if instrument.damping > 0 else tip_name
 
 
 def lead_branches(graph: CopperGraph, branches: Sequence[Branch]) -> np.ndarray:
@@ -202,8 +225,9 @@ def has_save_card(netlist_bytes: bytes) -> bool:
 
 def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAllocator,
                      netlist_bytes: bytes) -> list[str]:
-    """The instrument inputs (R in parallel with C between the lead ends) and a
-    ``.save`` card for the reading's nodes.
+    """The instrument inputs (R in parallel with C between the lead ends, behind
+    the series damping resistance where the instrument has one) and a ``.save``
+    card for the reading's nodes.
 
     ngspice writes every node when a deck has no ``.save`` card and only the
     listed ones when it has one; ``.save`` cards add up (ngspice 39, checked by
@@ -214,11 +238,15 @@ def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAl
     saved: list[str] = []
     for pn in probe_nodes(graph):
         pr, ins = pn.probe, pn.probe.instrument
-        plus, minus = names[pn.tip_end], names[pn.ground_end]
+        end, minus = names[pn.tip_end], names[pn.ground_end]
+        plus = reading_plus(end, ins)
         tag = sanitize(pr.name)
         what = f"preset {ins.preset!r}" if ins.preset else "given values"
+        damped = f", behind {ins.damping:g} ohm in series from {end}" if ins.damping > 0 else ""
         cards.append(f"* probe {pr.name}: reading = v({plus}) - v({minus}); instrument input "
-                     f"{ins.resistance:g} ohm || {ins.capacitance:g} F ({what})")
+                     f"{ins.resistance:g} ohm || {ins.capacitance:g} F{damped} ({what})")
+        if ins.damping > 0:
+            cards.append(f"{elements.new('Rdamp_' + tag)} {end} {plus} {ins.damping:.10e}")
         cards.append(f"{elements.new('Rprobe_' + tag)} {plus} {minus} {ins.resistance:.10e}")
         cards.append(f"{elements.new('Cprobe_' + tag)} {plus} {minus} {ins.capacitance:.10e}")
         saved += [f"v({plus})", f"v({minus})"]
@@ -303,6 +331,7 @@ def probe_report(extraction: Any, names: dict[int, str],
         pr, ins = pn.probe, pn.probe.instrument
         v = _loop_vector(graph, pn)
         l_leads = float(v @ L @ v)
+        r_leads = float(R[list(pn.tip_segments) + list(pn.ground_segments)].sum())
         entries = []
         for spec, c, f in currents:
             m = complex(v @ (L @ c))
@@ -318,21 +347,41 @@ def probe_report(extraction: Any, names: dict[int, str],
             })
         out.append({
             "name": pr.name,
-            "plus": names.get(pn.tip_end),
+            "plus": (None if pn.tip_end not in names
+                     else reading_plus(names[pn.tip_end], ins)),
+            "tip_end": names.get(pn.tip_end),
             "minus": names.get(pn.ground_end),
             "tip_net": graph.nodes[pn.tip_contact].net,
             "ground_net": graph.nodes[pn.ground_contact].net,
             "tip_contact": names.get(pn.tip_contact),
             "ground_contact": names.get(pn.ground_contact),
             "instrument": {"preset": ins.preset, "resistance": ins.resistance,
-                           "capacitance": ins.capacitance},
+                           "capacitance": ins.capacitance, "damping": ins.damping},
             "tip_lead_length": _lead_length(graph, pn.tip_segments),
             "ground_lead_length": _lead_length(graph, pn.ground_segments),
             "lead_inductance": l_leads,
+            "lead_resistance": r_leads,
             "lead_resonance": 1.0 / (2 * math.pi * math.sqrt(l_leads * ins.capacitance)),
+            "lead_damping_ratio": lead_damping_ratio(
+                l_leads, r_leads + ins.damping, ins.capacitance, ins.resistance),
             "pickup": entries,
         })
     return out
+
+
+def lead_damping_ratio(inductance: float, series_resistance: float, capacitance: float,
+                       parallel_resistance: float) -> float:
+    """Damping ratio (dimensionless) of the leads' resonance: a series
+    ``inductance`` (H) and ``series_resistance`` (ohm: the leads' copper plus
+    the instrument's damping resistance) driving ``capacitance`` (F) in parallel
+    with ``parallel_resistance`` (ohm), the circuit between the contacts taken
+    as a short. Its characteristic polynomial
+    ``L C s^2 + (Rs C + L / Rp) s + (1 + Rs / Rp)`` gives
+    ``zeta = (Rs C + L / Rp) / (2 sqrt(L C (1 + Rs / Rp)))``, about
+    ``(Rs / 2) sqrt(C / L)`` for a large ``Rp`` (the standard second-order
+    form, e.g. Nilsson & Riedel, *Electric Circuits*, ch. 8, series RLC)."""
+    L, Rs, C, Rp = inductance, series_resistance, capacitance, parallel_resistance
+    return (Rs * C + L / Rp) / (2.0 * math.sqrt(L * C * (1.0 + Rs / Rp)))
 
 
 def format_probe_table(probes: Sequence[dict[str, Any]]) -> list[str]:
@@ -343,15 +392,20 @@ def format_probe_table(probes: Sequence[dict[str, Any]]) -> list[str]:
     for p in probes:
         ins = p["instrument"]
         kind = ins["preset"] or "given"
+        damping = ins.get("damping") or 0.0
+        behind = f" behind {engineering(damping, 'ohm')} in series" if damping > 0 else ""
         lines.append(
             f"  {p['name']}: reads v({p['plus']}) - v({p['minus']}); tip on net "
             f"{p['tip_net']!r}, ground on net {p['ground_net']!r}; instrument {kind} "
-            f"({engineering(ins['resistance'], 'ohm')} || {engineering(ins['capacitance'], 'F')})")
+            f"({engineering(ins['resistance'], 'ohm')} || {engineering(ins['capacitance'], 'F')}"
+            f"{behind})")
+        zeta = p.get("lead_damping_ratio")
         lines.append(
             f"    leads: tip {1e3 * p['tip_lead_length']:.1f} mm, ground "
             f"{1e3 * p['ground_lead_length']:.1f} mm; their loop "
             f"{engineering(p['lead_inductance'], 'H')}, resonating with the input capacitance at "
-            f"{engineering(p['lead_resonance'], 'Hz')}")
+            f"{engineering(p['lead_resonance'], 'Hz')}"
+            + ("" if zeta is None else f", damping ratio {zeta:.2g}"))
         for e in p["pickup"]:
             if e["pickup_per_ampere"] is None:
                 at = "no frequency given for this loop, so no EMF"
