@@ -163,7 +163,7 @@ HAND_EXPECTED = {
         "M1": (("vin", "g1", "sw"), ("d", "g", "s"), "mhs"),
         "M2": (("sw", "g2", "0"), ("d", "g", "s"), "mls"),
         "VDRV1": (("drv1", "sw"), ("p", "n"), None),
-        "L1": (("sw", "out"), ("1", "2"), None),
+        "IL1": (("sw", "out"), ("p", "n"), None),
         "RLOAD": (("out", "0"), ("1", "2"), None),
     },
 }
@@ -187,7 +187,7 @@ def test_buck_demo_has_exactly_the_agreed_elements() -> None:
         "M1": ("vin", "g1", "sw"), "M2": ("sw", "g2", "0"),
         "VDRV1": ("drv1", "sw"), "RG1": ("drv1", "g1"),
         "VDRV2": ("drv2", "0"), "RG2": ("drv2", "g2"),
-        "L1": ("sw", "out"), "COUT": ("out", "0"), "RLOAD": ("out", "0"),
+        "IL1": ("sw", "out"), "COUT": ("out", "0"), "RLOAD": ("out", "0"),
     }
     assert net.models["mhs"].type == "vdmos" and net.models["mls"].type == "vdmos"
 

@@ -117,13 +117,13 @@ def test_anchor_errors() -> None:
 def test_demo_pins_against_the_demo_netlist() -> None:
     """Nodes read off fixtures/demo/buck.cir: VIN vin 0; CIN1/CIN2 vin 0;
     M1 vin g1 sw; M2 sw g2 0; VDRV1 drv1 sw; RG1 drv1 g1; VDRV2 drv2 0;
-    RG2 drv2 g2; L1 sw out."""
+    RG2 drv2 g2; IL1 sw out."""
     routes = load_routes(ROOT / "fixtures" / "demo" / "buck.routes.toml")
     res = resolve_pins(routes, read_netlist(ROOT / "fixtures" / "demo" / "buck.cir"))
     expected = {
         "VIN:p": "vin", "VIN:n": "0", "CIN1:1": "vin", "CIN1:2": "0", "CIN2:1": "vin",
         "CIN2:2": "0", "M1:d": "vin", "M1:s": "sw", "M1:g": "g1", "M2:d": "sw", "M2:s": "0",
-        "M2:g": "g2", "L1:1": "sw", "VDRV1:p": "drv1", "VDRV1:n": "sw", "RG1:1": "drv1",
+        "M2:g": "g2", "IL1:p": "sw", "VDRV1:p": "drv1", "VDRV1:n": "sw", "RG1:1": "drv1",
         "RG1:2": "g1", "VDRV2:p": "drv2", "VDRV2:n": "0", "RG2:1": "drv2", "RG2:2": "g2",
     }
     assert dict(zip([p.terminal for p in routes.pins], res.nets, strict=True)) == expected
