@@ -20,6 +20,7 @@ terminals; the new cards go before the top-level ``.end``.
 from __future__ import annotations
 
 import copy
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -116,12 +117,33 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
         cards += _coupling_cards(selection, inductor_names, elements)
     cards += probes.instrument_cards(graph, names, elements, netlist.to_bytes())
     report = build_report(extraction, options, selection, branches=branches, node_names=names)
+    report["warnings"] += initial_current_warnings(netlist, set(graph.anchors))
     for pin in graph.pins:  # after the report: loops resolve terminals on the original netlist
         if pin.node != graph.anchors.get(pin.net):
             netlist.rename_terminal(pin.pin.element, pin.pin.term, names[pin.node])
     header = _header(extraction, report, branches, selection, names, mask)
     netlist.append_cards(header + cards + ["* ---- end of parasite copper ----"])
     return AugmentResult(netlist.to_bytes(), report, names, branches, inductor_names)
+
+
+_IC = re.compile(r"(?:^|[\s,])ic\s*=\s*([^\s,)]+)", re.IGNORECASE)
+
+
+def initial_current_warnings(netlist: Any, copper_nets: set[str]) -> list[str]:
+    """Inductor elements that start with a current (``ic=``) on a net that now
+    has copper: under ``uic`` the copper's inductors start at 0 A, so the initial
+    currents disagree and the first nanoseconds of a transient are not physical."""
+    out = []
+    for el in netlist.elements:
+        if el.letter != "L" or not copper_nets.intersection(el.nodes):
+            continue
+        m = _IC.search(netlist.card_text(el.name))
+        if m and m.group(1).strip("{}") not in ("0", "0.0"):
+            nets = ", ".join(sorted(copper_nets.intersection(el.nodes)))
+            out.append(f"{el.name} starts with ic={m.group(1)} on net {nets}, which has copper: under uic "
+                       "the copper's inductors start at 0 A, so the start of a transient is not "
+                       "consistent; start from 0 A (e.g. ramp a current source) or from an operating point")
+    return out
 
 
 def _header(extraction: Extraction, report: dict[str, Any], branches: list[Branch],
