@@ -30,7 +30,7 @@ def test_hoer_love_function_is_the_sixfold_antiderivative() -> None:
             d6 = mp.diff(_f_mp, p, (2, 2, 2))
             assert abs(d6 * mp.sqrt(sum(v * v for v in p)) - 1) < 1e-12
         assert float(hoer_love_f(*(np.array(v) for v in p))) == pytest.approx(
-            float(hoer_love_f_mp(*p)), rel=1e-13)
+            float(hoer_love_f_mp(*p)), rel=1e-13, abs=0)
 
 
 def test_rectangle_log_kernel_and_published_gmd() -> None:
@@ -40,10 +40,10 @@ def test_rectangle_log_kernel_and_published_gmd() -> None:
     Tolerances: 2e-5 (square, 5 published digits), 5e-4 (strip of finite thickness t = 1e-4 a)."""
     one, zero = np.array([1.0]), np.array([0.0])
     assert np.exp(mean_log_distance(zero, zero, one, one, one, one))[0] == pytest.approx(
-        0.44705, rel=2e-5)
+        0.44705, rel=2e-5, abs=0)
     thin = one * 1e-4
     assert np.exp(mean_log_distance(zero, zero, one, thin, one, thin))[0] == pytest.approx(
-        np.exp(-1.5), rel=5e-4)
+        np.exp(-1.5), rel=5e-4, abs=0)
     # the kernel's 4th mixed derivative is ln r (mpmath numerical differentiation)
     with mp.workdps(30):
         def g(y: mp.mpf, z: mp.mpf) -> mp.mpf:
@@ -53,7 +53,7 @@ def test_rectangle_log_kernel_and_published_gmd() -> None:
         d = mp.diff(g, (0.3, 0.7), (2, 2))
         assert abs(d - mp.log(mp.sqrt(0.58))) < 1e-12
         assert float(rect_log_kernel(np.array(0.3), np.array(0.7))) == pytest.approx(
-            float(g(mp.mpf(0.3), mp.mpf(0.7))), rel=1e-13)
+            float(g(mp.mpf(0.3), mp.mpf(0.7))), rel=1e-13, abs=0)
 
 
 @pytest.mark.parametrize("length, width, thickness", [
@@ -66,7 +66,7 @@ def test_bar_self_inductance_exact(length: float, width: float, thickness: float
     Tolerance 1e-8: float64 evaluation of a well-conditioned form."""
     ref = hoer_love_mp(0, length, 0, length, 0, 0, width, thickness, width, thickness, dps=80)
     got = bar_self_inductance(np.array([length]), np.array([width]), np.array([thickness]))[0]
-    assert got == pytest.approx(ref, rel=1e-8)
+    assert got == pytest.approx(ref, rel=1e-8, abs=0)
 
 
 @pytest.mark.parametrize("l_cm, b_cm, c_cm", [(1.0, 0.1, 0.1), (10.0, 0.1, 0.1),
@@ -80,7 +80,7 @@ def test_bar_self_inductance_grover(l_cm: float, b_cm: float, c_cm: float) -> No
                              + 0.2235 * (b_cm + c_cm) / l_cm) * 1e-6
     got = bar_self_inductance(np.array([l_cm / 100]), np.array([b_cm / 100]),
                               np.array([c_cm / 100]))[0]
-    assert got == pytest.approx(grover, rel=3e-3)
+    assert got == pytest.approx(grover, rel=3e-3, abs=0)
 
 
 def test_narrow_trace_rule_of_thumb() -> None:
@@ -109,7 +109,7 @@ def test_raw_float64_corner_sum_loses_precision() -> None:
     ref = hoer_love_mp(*args)
     assert abs(_raw_hoer_love(*args) - ref) > 1e-4 * abs(ref)
     got = parallel_bars(*(np.array([v]) for v in args))[0]
-    assert got == pytest.approx(ref, rel=1e-6)
+    assert got == pytest.approx(ref, rel=1e-6, abs=0)
 
 
 def _sweep_cases() -> list[tuple[float, ...]]:
@@ -158,7 +158,7 @@ def test_parallel_bars_against_scipy_cubature() -> None:
     fb = (np.array([1e-3, 1e-3, 0.0]), np.array([6e-3, 1e-3, 0.0]), EY, EZ, w, t)
     ref = neumann_bars_cubature(fa, fb)
     got = parallel_bars(*(np.array([v]) for v in (0, 5e-3, 1e-3, 6e-3, 1e-3, 0, w, t, w, t)))[0]
-    assert got == pytest.approx(ref, rel=1e-5)
+    assert got == pytest.approx(ref, rel=1e-5, abs=0)
 
 
 @pytest.mark.parametrize("pb, qb", [
@@ -177,7 +177,7 @@ def test_filament_mutual_against_quadrature(pb: tuple[float, ...], qb: tuple[flo
     pa, qa = np.zeros(3), EX
     ref = neumann_filament_np(pa, qa, np.array(pb, float), np.array(qb, float))
     got = float(filament_mutual(pa, qa, np.array(pb, float), np.array(qb, float)))
-    assert got == pytest.approx(ref, rel=1e-9)
+    assert got == pytest.approx(ref, rel=1e-9, abs=0)
 
 
 def test_filament_mutual_perpendicular_is_zero() -> None:
@@ -198,7 +198,7 @@ def test_grover_filaments_meeting_at_an_angle() -> None:
         ref = 1e-7 * 2 * np.cos(theta) * (l_ * np.arctanh(m_ / (l_ + r))
                                           + m_ * np.arctanh(l_ / (m_ + r)))
         got = float(filament_mutual(pa, qa, np.zeros(3), qb))
-        assert got == pytest.approx(ref, rel=1e-12)
+        assert got == pytest.approx(ref, rel=1e-12, abs=0)
 
 
 def test_gauss_legendre_converges_to_closed_form() -> None:
@@ -207,4 +207,4 @@ def test_gauss_legendre_converges_to_closed_form() -> None:
     pa, qa = np.zeros(3), EX
     pb, qb = np.array([3.0, 2.0, 1.0]), np.array([3.5, 3.0, 0.2])
     assert float(gauss_legendre_mutual(pa, qa, pb, qb, 8)) == pytest.approx(
-        float(filament_mutual(pa, qa, pb, qb)), rel=1e-9)
+        float(filament_mutual(pa, qa, pb, qb)), rel=1e-9, abs=0)

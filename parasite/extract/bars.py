@@ -181,13 +181,19 @@ def _cross_section_sum(x: np.ndarray, yd: np.ndarray, zd: np.ndarray) -> np.ndar
 
 def parallel_filaments_corrected(a0: np.ndarray, a1: np.ndarray, b0: np.ndarray, b1: np.ndarray,
                                  dy: np.ndarray, dz: np.ndarray, m2y: np.ndarray,
-                                 m2z: np.ndarray) -> np.ndarray:
+                                 m2z: np.ndarray, m4_iso: np.ndarray | None = None
+                                 ) -> np.ndarray:
     """Mutual inductance (H) of parallel conductors far apart: the centre filaments
     (Grover 1946 ch. 4) plus the second-moment correction over the cross-sections,
     ``0.5 (m2y d2g/dy2 + m2z d2g/dz2)`` per corner term, with m2y, m2z (m^2) the
     variances of the difference of two points of the cross-sections along y and z
     (w^2/12 per bar of width w; (r_o^2 + r_i^2)/4 per round conductor). Needs
-    hypot(dy, dz) well above the cross-section size (module docstring)."""
+    hypot(dy, dz) well above the cross-section size (module docstring).
+
+    For two round sections (isotropic, m2y = m2z) the mean of g over the difference
+    vector u is the series sum_n E|u|^(2n) / (4^n n!^2) lap^n g (mean-value expansion in
+    the plane); ``m4_iso`` = E|u|^4 adds its fourth-order term, with lap g = -1/R and
+    lap^2 g = -(rho^2 - 2 x^2)/R^5."""
     x = corner_differences(a0, a1, b0, b1)
     rho = np.hypot(dy, dz)[..., None]
     y2 = (dy * dy)[..., None]
@@ -200,6 +206,9 @@ def parallel_filaments_corrected(a0: np.ndarray, a1: np.ndarray, b0: np.ndarray,
     corr = (-(m2y[..., None] * y2 + m2z[..., None] * z2) / (2 * rho2) * inv_minus
             + (m2y - m2z)[..., None] * (y2 - z2) / (2 * rho2 * rho2) * r_minus)
     val = g_parallel(x, rho) + corr
+    if m4_iso is not None:
+        r5 = r * r * r * r * r
+        val = val - (m4_iso[..., None] / 64) * (rho2 - 2 * x2) / r5
     return MU0_4PI * np.sum(CORNER_SIGNS * val, axis=-1)
 
 

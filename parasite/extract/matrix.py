@@ -44,6 +44,7 @@ from parasite.extract.images import IMAGE_SIGN, mirror_points
 from parasite.extract.inclined import choose_order, inclined_mutual, segment_distance
 from parasite.extract.round import (
     coaxial_round_mutual,
+    round_difference_m4,
     round_section_variance,
     round_self_inductance,
 )
@@ -225,8 +226,10 @@ def _parallel(c: _Conductors, a: np.ndarray, b: np.ndarray, sgn: np.ndarray) -> 
             + np.where(rb[m], 0.0, c.width[b][m] ** 2 / 12)
         m2z = var_a + var_b + np.where(ra[m], 0.0, c.thickness[a][m] ** 2 / 12) \
             + np.where(rb[m], 0.0, c.thickness[b][m] ** 2 / 12)
+        m4 = np.where(ra[m] & rb[m], round_difference_m4(
+            c.radius[a][m], c.inner[a][m], c.radius[b][m], c.inner[b][m]), 0.0)
         out[m] = parallel_filaments_corrected(zero[m], la[m], lo[m], hi[m], dy[m], dz[m],
-                                              m2y, m2z)
+                                              m2y, m2z, m4)
     return sgn * out
 
 

@@ -101,6 +101,20 @@ def round_self_inductance(length: np.ndarray, radius: np.ndarray,
                                 inner_radius)
 
 
+def round_difference_m4(ro1: np.ndarray, ri1: np.ndarray, ro2: np.ndarray,
+                        ri2: np.ndarray) -> np.ndarray:
+    """E|u|^4 (m^4) for u the difference of independent uniform points of two annuli:
+    E|u1|^4 + E|u2|^4 + 4 E|u1|^2 E|u2|^2, with E|u|^2 = (r_o^2 + r_i^2)/2 and
+    E|u|^4 = (r_o^4 + r_o^2 r_i^2 + r_i^4)/3 for one annulus."""
+    def e2(ro: np.ndarray, ri: np.ndarray) -> np.ndarray:
+        return (ro * ro + ri * ri) / 2
+
+    def e4(ro: np.ndarray, ri: np.ndarray) -> np.ndarray:
+        return (ro**4 + ro * ro * ri * ri + ri**4) / 3
+
+    return e4(ro1, ri1) + e4(ro2, ri2) + 4 * e2(ro1, ri1) * e2(ro2, ri2)
+
+
 def round_section_variance(radius: np.ndarray, inner_radius: np.ndarray) -> np.ndarray:
     """Variance (m^2) along any axis of a point uniform on an annulus: (r_o^2 + r_i^2)/4."""
     return (np.asarray(radius) ** 2 + np.asarray(inner_radius) ** 2) / 4
