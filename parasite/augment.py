@@ -32,15 +32,12 @@ from parasite.branches import Branch, branch_matrices, build_branches, conductin
 from parasite.naming import NameAllocator, sanitize
 from parasite.pipeline import Extraction
 
-DEFAULT_MIN_COUPLING = 0.02
-"""Default |k| threshold for coupling statements. See DEVELOPERS.md ("Choosing
-the coupling threshold") for the measurement behind it."""
-
 
 @dataclass(frozen=True)
 class AugmentOptions:
-    min_coupling: float = DEFAULT_MIN_COUPLING
+    min_coupling: float | None = None  # None: chosen per board (parasite.threshold)
     keep_segments: bool = False
+    loop_tolerance: float = 0.01  # with min_coupling None: largest change of a loop's L
 
 
 @dataclass(frozen=True)
@@ -84,7 +81,9 @@ def _point_mm(p: tuple[float, float, float]) -> str:
 def augment(extraction: Extraction, options: AugmentOptions | None = None) -> AugmentResult:
     """Build the augmented netlist and the JSON report of one run."""
     from parasite.extract import choose_couplings
+    from parasite.extract.couplings import written_matrix
     from parasite.report import build_report
+    from parasite.threshold import FALLBACK, ThresholdChoice, choose_threshold
 
     options = options or AugmentOptions()
     inputs = extraction.inputs
@@ -105,18 +104,36 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
 
     elements = NameAllocator(netlist.element_names())
     selection = None
+    choice = ThresholdChoice(options.min_coupling or FALLBACK, "no copper", {})
     cards: list[str] = []
     inductor_names: list[str] = []
     if branches:
         Lb, Rb = branch_matrices(branches, extraction.L, extraction.R)
         leads = probes.lead_branches(graph, branches)
-        selection = (probes.select_couplings(Lb, options.min_coupling, leads) if leads.any()
-                     else choose_couplings(Lb, options.min_coupling))
+        selections: dict[float, Any] = {}
+
+        def select(thr: float) -> Any:
+            if thr not in selections:
+                selections[thr] = (probes.select_couplings(Lb, thr, leads) if leads.any()
+                                   else choose_couplings(Lb, thr))
+            return selections[thr]
+
+        def written(thr: float) -> np.ndarray:
+            sel = select(thr)
+            return written_matrix(sel.self_inductance, sel.i, sel.j, sel.k)
+
+        if options.min_coupling is None:
+            choice = choose_threshold(graph, inputs.netlist, branches, Lb, Rb, written,
+                                      tolerance=options.loop_tolerance)
+        else:
+            choice = ThresholdChoice(options.min_coupling, "given on the command line", {})
+        selection = select(choice.min_coupling)
         cards += _branch_cards(extraction, branches, Rb, selection.self_inductance, names,
                                allocator, elements, inductor_names)
         cards += _coupling_cards(selection, inductor_names, elements)
     cards += probes.instrument_cards(graph, names, elements, netlist.to_bytes())
-    report = build_report(extraction, options, selection, branches=branches, node_names=names)
+    report = build_report(extraction, options, selection, branches=branches, node_names=names,
+                          threshold=choice)
     report["warnings"] += initial_current_warnings(netlist, set(graph.anchors))
     for pin in graph.pins:  # after the report: loops resolve terminals on the original netlist
         if pin.node != graph.anchors.get(pin.net):
@@ -159,7 +176,7 @@ def _header(extraction: Extraction, report: dict[str, Any], branches: list[Branc
         f"({len(inputs.graph.segments) - int(mask.sum())} segments carry no current and are left out)",
         f"* {summary['couplings_written']} coupling statements with |k| >= "
         f"{summary['min_coupling']:g}, {summary['couplings_dropped']} weaker dropped "
-        f"({selection.method if selection else 'none'})",
+        f"({selection.method if selection else 'none'}; threshold {summary['min_coupling_rule'] or 'given'})",
         f"* {len(used_nodes - anchors)} new nodes; resistance "
         + ("at DC" if freq is None else f"at {freq:g} Hz (skin effect estimate)"),
         "* smallest eigenvalue of the inductance matrix as written: "
@@ -222,8 +239,5 @@ def augment_files(netlist_path: str, routes_path: str, *, min_coupling: float | 
 
     inputs = load_inputs(netlist_path, routes_path)
     extraction = extract(inputs, frequency=frequency, progress=progress)
-    options = AugmentOptions(
-        min_coupling=DEFAULT_MIN_COUPLING if min_coupling is None else min_coupling,
-        keep_segments=keep_segments,
-    )
+    options = AugmentOptions(min_coupling=min_coupling, keep_segments=keep_segments)
     return augment(extraction, options)

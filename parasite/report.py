@@ -42,7 +42,7 @@ def segment_couplings(L: np.ndarray, min_coupling: float,
 
 
 def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any = None,
-                 node_names: dict[int, str] | None = None) -> dict[str, Any]:
+                 node_names: dict[int, str] | None = None, threshold: Any = None) -> dict[str, Any]:
     """The JSON report of one extraction (see docs: command-line contract)."""
     from parasite.loops import loop_result_dict, loop_results
     from parasite.probes import probe_report
@@ -50,6 +50,12 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
     inputs = extraction.inputs
     graph = inputs.graph
     L, R = extraction.L, extraction.R
+    if threshold is not None:
+        min_coupling = float(threshold.min_coupling)
+    else:
+        from parasite.threshold import FALLBACK
+
+        min_coupling = FALLBACK if options.min_coupling is None else float(options.min_coupling)
     names = node_names or {n.id: f"{n.net}#{n.id}" for n in graph.nodes}
     segments = []
     for s in graph.segments:
@@ -62,7 +68,7 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
         })
     couplings = [
         {"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
-        for i, j, m, k in segment_couplings(L, options.min_coupling)
+        for i, j, m, k in segment_couplings(L, max(min_coupling, 1e-12))
     ] if len(L) else []
     loops = ([loop_result_dict(r) for r in loop_results(graph, inputs.netlist, L, R)]
              if graph.routes.loops else [])
@@ -73,7 +79,9 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
         "branches": n_br,
         "couplings_written": int(selection.kept) if selection is not None else 0,
         "couplings_dropped": int(selection.dropped) if selection is not None else 0,
-        "min_coupling": float(options.min_coupling),
+        "min_coupling": min_coupling,
+        "min_coupling_rule": threshold.rule if threshold is not None else "",
+        "loop_errors_from_pruning": dict(threshold.loop_errors) if threshold is not None else {},
         "passive": bool(selection is None or selection.min_eigenvalue > 0),
         "min_eigenvalue": _num(selection.min_eigenvalue) if selection is not None else None,
         "sparsification": selection.method if selection is not None else None,

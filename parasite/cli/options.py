@@ -36,8 +36,10 @@ frequency_opt = click.option(
     help="Resistance at this frequency in Hz (skin effect estimate); default DC. Accepts 100meg.",
 )
 min_coupling_opt = click.option(
-    "--min-coupling", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True), default=None,
-    help="Write coupling statements only for |k| at or above this (default 0.02).",
+    "--min-coupling", type=click.FloatRange(0.0, 1.0, max_open=True), default=None,
+    help="Write coupling statements only for |k| at or above this (0: every coupling). Default: "
+         "chosen per board, the largest threshold that keeps every [[loop]] within 1% of the full "
+         "matrix (0.01 for a board without loops).",
 )
 quiet_opt = click.option("--quiet", "-q", is_flag=True, help="No progress on standard error.")
 
