@@ -26,6 +26,8 @@ Everything is in SI units: lengths in m, inductance in H.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 MU0_4PI = 1e-7
@@ -145,6 +147,15 @@ def filament_mutual(pa: np.ndarray, qa: np.ndarray, pb: np.ndarray, qb: np.ndarr
     return MU0_4PI * out
 
 
+@functools.lru_cache(maxsize=64)
+def gauss_legendre(order: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss-Legendre nodes and weights on [-1, 1] (cached; read-only arrays)."""
+    x, w = np.polynomial.legendre.leggauss(order)
+    x.setflags(write=False)
+    w.setflags(write=False)
+    return x, w
+
+
 def gauss_legendre_mutual(pa: np.ndarray, qa: np.ndarray, pb: np.ndarray, qb: np.ndarray,
                           order: int) -> np.ndarray:
     """Neumann's formula by ``order``-point Gauss-Legendre quadrature on both filaments (H).
@@ -152,7 +163,7 @@ def gauss_legendre_mutual(pa: np.ndarray, qa: np.ndarray, pb: np.ndarray, qb: np
     For filaments far apart compared with their lengths the error falls like
     (l/(2 D))^(2 order); shapes (..., 3) in m.
     """
-    x, w = np.polynomial.legendre.leggauss(order)
+    x, w = gauss_legendre(order)
     x = 0.5 * (x + 1.0)
     w = 0.5 * w
     pa, qa, pb, qb = (np.asarray(v, dtype=float) for v in (pa, qa, pb, qb))

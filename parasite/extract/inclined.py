@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from parasite.extract.filaments import filament_mutual
+from parasite.extract.filaments import filament_mutual, gauss_legendre
 
 ORDER_TABLE: tuple[tuple[float, int], ...] = ((20.0, 1), (0.5, 2), (0.1, 4), (0.0, 8))
 """(minimum of distance / section size, Gauss-Legendre order per section dimension)."""
@@ -63,7 +63,7 @@ def choose_order(distance: np.ndarray, size: np.ndarray) -> np.ndarray:
 
 def _grid(n: int) -> tuple[np.ndarray, np.ndarray]:
     """Nodes (n*n, 2) on [-1/2, 1/2]^2 and weights summing to 1."""
-    x, w = np.polynomial.legendre.leggauss(n)
+    x, w = gauss_legendre(n)
     x, w = 0.5 * x, 0.5 * w
     nodes = np.stack(np.meshgrid(x, x, indexing="ij"), axis=-1).reshape(-1, 2)
     weights = np.outer(w, w).reshape(-1)
@@ -81,13 +81,18 @@ def _same_layer_grids(n_w: int, n_z: int) -> tuple[np.ndarray, np.ndarray, np.nd
     the two filaments, whose density is triangular, (t - |dz|)/t^2 on [-t, t], and is
     even in dz. So bar a gets n_w width points at its mid-height and bar b gets n_w
     width points times n_z points dz/t in [0, 1] with weights 2 (1 - s) (Gauss-Legendre
-    on [0, 1], the kink of the integrand at dz = 0 sitting at an end of the interval).
+    on [0, 1], the kink of the integrand at dz = 0 sitting at an end of the interval);
+    n_z = 1 is the single point dz = t/sqrt(6), exact for the even integrand to second
+    order.
     Returns nodes and weights of a, then of b (nodes as fractions of width, thickness)."""
-    x, w = np.polynomial.legendre.leggauss(n_w)
+    x, w = gauss_legendre(n_w)
     x, w = 0.5 * x, 0.5 * w
-    z, wz = np.polynomial.legendre.leggauss(n_z)
-    z, wz = 0.5 * (z + 1.0), 0.5 * wz * 2.0 * (1.0 - 0.5 * (z + 1.0))
-    wz = wz / wz.sum()
+    if n_z == 1:  # one height difference with the right second moment: E[dz^2] = t^2/6
+        z, wz = np.array([1.0 / np.sqrt(6.0)]), np.array([1.0])
+    else:
+        z, wz = gauss_legendre(n_z)
+        z, wz = 0.5 * (z + 1.0), 0.5 * wz * 2.0 * (1.0 - 0.5 * (z + 1.0))
+        wz = wz / wz.sum()
     nodes_a = np.stack([x, np.zeros_like(x)], axis=-1)
     nodes_b = np.stack(np.meshgrid(x, z, indexing="ij"), axis=-1).reshape(-1, 2)
     weights_b = np.outer(w, wz).reshape(-1)

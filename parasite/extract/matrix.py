@@ -39,7 +39,7 @@ import numpy as np
 from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
 from parasite.extract.bars import bar_self_inductance, parallel_bars, parallel_filaments_corrected
-from parasite.extract.filaments import MU0_4PI
+from parasite.extract.filaments import MU0_4PI, gauss_legendre
 from parasite.extract.images import IMAGE_SIGN, mirror_points
 from parasite.extract.inclined import choose_order, inclined_mutual, segment_distance
 from parasite.extract.round import (
@@ -59,9 +59,10 @@ FAR_RULES: tuple[tuple[float, int], ...] = ((3.5, 2), (2.0, 3), (1.5, 4), (1.2, 
 centre line) for :func:`far_mutual`. Worst relative error of the line quadrature
 over random pairs at each bound: 8e-5, 2e-5, 1e-5, 4e-5 (tests/test_extract_matrix.py)."""
 
-PLAIN_SECTION_RATIO = 20.0
+PLAIN_SECTION_RATIO = 30.0
 """Pairs whose least possible distance is at least this many section sizes skip the
-section correction (its relative size is below (h/D)^2/24 ~ 1e-4)."""
+section correction (relative size about (h/D)^2/12, below 1e-4 here; with the line
+quadrature the worst case in tests/test_extract_matrix.py is 6e-5)."""
 
 FAR_SECTION_RATIO = 4.0
 """A pair uses :func:`far_mutual` only if its least possible distance (midpoint distance
@@ -70,7 +71,8 @@ second-order section correction then leaves a fourth-order remainder below 1e-4.
 
 
 def far_mutual(mid_a: np.ndarray, da: np.ndarray, mid_b: np.ndarray, db: np.ndarray,
-               order: int, dirs: np.ndarray, var: np.ndarray) -> np.ndarray:
+               order: int, dirs: np.ndarray | None = None,
+               var: np.ndarray | None = None) -> np.ndarray:
     """Neumann's formula (H) by ``order``-point Gauss-Legendre quadrature along both centre
     lines, averaged over both sections to second order.
 
@@ -81,8 +83,10 @@ def far_mutual(mid_a: np.ndarray, da: np.ndarray, mid_b: np.ndarray, db: np.ndar
     over the section axes ``dirs`` (n, 4, 3) with variances ``var`` (n, 4) m^2).
     Segments by midpoints and end-to-end vectors (n, 3) in m; x_k in [-1/2, 1/2]. The
     squared distances are expanded in dot products, so each node pair costs a few flops.
+    Without ``dirs`` the section correction is left out (pairs clear of each other by
+    :data:`PLAIN_SECTION_RATIO` section sizes).
     """
-    x, w = np.polynomial.legendre.leggauss(order)
+    x, w = gauss_legendre(order)
     x, w = 0.5 * x, 0.5 * w
     m = mid_a - mid_b
     mm = np.einsum("ij,ij->i", m, m)
@@ -91,11 +95,17 @@ def far_mutual(mid_a: np.ndarray, da: np.ndarray, mid_b: np.ndarray, db: np.ndar
     aa = np.einsum("ij,ij->i", da, da)
     bb = np.einsum("ij,ij->i", db, db)
     ab = np.einsum("ij,ij->i", da, db)
+    acc = np.zeros(mm.shape)
+    if dirs is None or var is None:
+        for xk, wk in zip(x, w, strict=True):
+            base = mm + xk * ma + xk * xk * aa
+            for xl, wl in zip(x, w, strict=True):
+                acc += (wk * wl) / np.sqrt(base + xl * mb + xl * xl * bb - 2.0 * xk * xl * ab)
+        return MU0_4PI * ab * acc
     pm = np.einsum("ikj,ij->ik", dirs, m)  # (n, 4) projections on the section axes
     pa = np.einsum("ikj,ij->ik", dirs, da)
     pb = np.einsum("ikj,ij->ik", dirs, db)
     trc = var.sum(axis=1)
-    acc = np.zeros(mm.shape)
     for xk, wk in zip(x, w, strict=True):
         base = mm + xk * ma + xk * xk * aa
         pk = pm + xk * pa
@@ -155,18 +165,29 @@ def _mutual(c: _Conductors, ia: np.ndarray, ib: np.ndarray) -> np.ndarray:
     live = np.abs(cos) >= PERPENDICULAR_COS
     dm = np.linalg.norm(c.mid[ia] - c.mid[ib], axis=1)
     lmax = np.maximum(c.length[ia], c.length[ib])
-    clear = dm - 0.5 * (c.length[ia] + c.length[ib]) >= FAR_SECTION_RATIO * np.maximum(
-        c.size[ia], c.size[ib])
+    gap = dm - 0.5 * (c.length[ia] + c.length[ib])
+    hmax = np.maximum(c.size[ia], c.size[ib])
+    clear = gap >= FAR_SECTION_RATIO * hmax
+    plain = gap >= PLAIN_SECTION_RATIO * hmax
     todo = live.copy()
     for ratio, n_gl in FAR_RULES:
         sel = todo & clear & (dm >= ratio * lmax)
-        if np.any(sel):
-            a, b = ia[sel], ib[sel]
-            dirs = np.stack([c.w_dir[a], c.t_dir[a], c.w_dir[b], c.t_dir[b]], axis=1)
-            var = np.stack([c.width[a], c.thickness[a], c.width[b], c.thickness[b]], axis=1)
-            out[sel] = far_mutual(c.mid[a], c.d[a], c.mid[b], c.d[b], n_gl, dirs,
-                                  var * var / 12.0)
-            todo &= ~sel
+        if not np.any(sel):
+            continue
+        for corrected in (False, True):
+            part = sel & (plain != corrected)
+            if not np.any(part):
+                continue
+            a, b = ia[part], ib[part]
+            if corrected:
+                dirs = np.stack([c.w_dir[a], c.t_dir[a], c.w_dir[b], c.t_dir[b]], axis=1)
+                var = np.stack([c.width[a], c.thickness[a], c.width[b], c.thickness[b]],
+                               axis=1)
+                out[part] = far_mutual(c.mid[a], c.d[a], c.mid[b], c.d[b], n_gl, dirs,
+                                       var * var / 12.0)
+            else:
+                out[part] = far_mutual(c.mid[a], c.d[a], c.mid[b], c.d[b], n_gl)
+        todo &= ~sel
     if not np.any(todo):
         return out
     sub = np.nonzero(todo)[0]
@@ -305,11 +326,11 @@ def inductance_matrix(arrays: SegmentArrays, *,
         vals = _block_values(cond, rows, np.arange(r0 + 1, n), img_index, mz)
         for k, i in enumerate(rows.tolist()):  # one Python step per row, not per pair
             L[i, i + 1:] = vals[k, i - r0:]
-            L[i + 1:, i] = vals[k, i - r0:]
         return int(np.sum(n - 1 - rows))
 
     # numpy releases the GIL in its loops: blocks run on all cores; each block writes
-    # its own rows (right of the diagonal) and columns (below it), so they never overlap
+    # its own rows right of the diagonal, so they never overlap; the lower triangle is
+    # copied from the upper one afterwards, tile by tile
     starts = list(range(0, n - 1, step))
     workers = min(len(starts), _workers())
     if workers <= 1:
@@ -317,13 +338,27 @@ def inductance_matrix(arrays: SegmentArrays, *,
             done += work(r0)
             if progress is not None:
                 progress(done, total)
-        return L
-    with ThreadPoolExecutor(max_workers=workers) as pool:
-        for count in pool.map(work, starts):
-            done += count
-            if progress is not None:
-                progress(done, total)
+    else:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            for count in pool.map(work, starts):
+                done += count
+                if progress is not None:
+                    progress(done, total)
+    _mirror_upper(L)
     return L
+
+
+def _mirror_upper(L: np.ndarray, tile: int = 256) -> None:
+    """Copy the strict upper triangle of L onto the lower one, in place, by tiles (the
+    copy of one tile row is the only temporary)."""
+    n = L.shape[0]
+    for r0 in range(0, n, tile):
+        r1 = min(n, r0 + tile)
+        diag = L[r0:r1, r0:r1]
+        low = np.tril_indices(r1 - r0, -1)
+        diag[low] = diag.T[low]
+        if r1 < n:
+            L[r1:, r0:r1] = L[r0:r1, r1:].T
 
 
 def _workers() -> int:

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from parasite.extract.filaments import MU0_4PI, parallel_filament_integral
+from parasite.extract.filaments import MU0_4PI, gauss_legendre, parallel_filament_integral
 
 _NODES = 24  # Gauss-Legendre points per piece between kinks of the covariogram
 
@@ -73,7 +73,7 @@ def coaxial_round_mutual(a0: np.ndarray, a1: np.ndarray, b0: np.ndarray, b1: np.
     edges = np.sort(np.concatenate([np.zeros_like(top)[:, None], np.minimum(kinks, top[:, None]),
                                     top[:, None]], axis=-1), axis=-1)  # (n, 9)
     lo, hi = edges[:, :-1], edges[:, 1:]  # (n, 8) pieces, some empty
-    x, w = np.polynomial.legendre.leggauss(_NODES)
+    x, w = gauss_legendre(_NODES)
     # rho = lo + (hi - lo) (3 s^2 - 2 s^3), s in [0, 1], clusters nodes at both ends of
     # each piece, where rho ln(rho) (first piece) and the kinks of K sit
     s = 0.5 * (x + 1.0)
