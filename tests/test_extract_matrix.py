@@ -235,3 +235,27 @@ def test_progress_and_errors() -> None:
                   [1e-5, 1e-5], [False, False], [0, 0], [0, 0], [np.nan, np.nan])
     with pytest.raises(ExtractionError, match=r"segment 1 has zero length"):
         inductance_matrix(bad)
+
+
+def test_lead_along_trace_either_order() -> None:
+    """A probe lead lying along a trace, listed before or after it (and antiparallel):
+    the same mutual term up to sign, equal to filaments over both sections
+    (checked against cubature in test_extract_round.py). Tolerance 1e-12."""
+    from parasite.extract.round import parallel_bar_round
+
+    trace = ([0, 0, 1e-3], [10e-3, 0, 1e-3], 1e-3, 35e-6, False, 0.0)
+    lead = ([2e-3, 0.2e-3, 1.7e-3], [9e-3, 0.2e-3, 1.7e-3], 1e-3, 1e-3, True, 0.5e-3)
+    lead_rev = (lead[1], lead[0], *lead[2:])
+
+    def mutual(first: tuple, second: tuple) -> float:
+        segs = [first, second]
+        arr = _arrays([s[0] for s in segs], [s[1] for s in segs], [s[2] for s in segs],
+                      [s[3] for s in segs], [s[4] for s in segs], [s[5] for s in segs],
+                      [0.0, 0.0], [np.nan, np.nan])
+        return float(inductance_matrix(arr)[0, 1])
+
+    ref = parallel_bar_round(0.0, 10e-3, 2e-3, 9e-3, 0.2e-3, 0.7e-3, 1e-3, 35e-6, 0.5e-3,
+                             0.0)[0]
+    assert mutual(trace, lead) == pytest.approx(ref, rel=1e-12, abs=0)
+    assert mutual(lead, trace) == pytest.approx(ref, rel=1e-12, abs=0)
+    assert mutual(lead_rev, trace) == pytest.approx(-ref, rel=1e-12, abs=0)

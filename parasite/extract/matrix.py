@@ -9,8 +9,11 @@ loops):
   moment-corrected filaments far);
 * coaxial round conductors (pieces of a via stack, a via and its image):
   :func:`parasite.extract.round.coaxial_round_mutual`;
+* a bar and a parallel round conductor (a probe lead along a trace) closer than
+  ``FAR_RATIO`` section sizes: :func:`parasite.extract.round.parallel_bar_round`
+  (filaments over both sections);
 * other parallel pairs with a round conductor: centre filaments with the
-  second-moment correction of both sections;
+  second-moment correction of both sections (fourth order for two round ones);
 * any other angle: Gauss-Legendre filaments over both sections with Neumann's
   closed form, order from distance / section size
   (:mod:`parasite.extract.inclined`);
@@ -38,12 +41,18 @@ import numpy as np
 
 from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
-from parasite.extract.bars import bar_self_inductance, parallel_bars, parallel_filaments_corrected
+from parasite.extract.bars import (
+    FAR_RATIO,
+    bar_self_inductance,
+    parallel_bars,
+    parallel_filaments_corrected,
+)
 from parasite.extract.filaments import MU0_4PI, gauss_legendre
 from parasite.extract.images import IMAGE_SIGN, mirror_points
 from parasite.extract.inclined import choose_order, inclined_mutual, segment_distance
 from parasite.extract.round import (
     coaxial_round_mutual,
+    parallel_bar_round,
     round_difference_m4,
     round_section_variance,
     round_self_inductance,
@@ -238,7 +247,21 @@ def _parallel(c: _Conductors, a: np.ndarray, b: np.ndarray, sgn: np.ndarray) -> 
         m = coax
         out[m] = coaxial_round_mutual(zero[m], la[m], lo[m], hi[m], c.radius[a][m],
                                       c.inner[a][m], c.radius[b][m], c.inner[b][m])
-    rest = ~bars & ~coax
+    mixed = ra != rb
+    hmax = np.maximum(c.size[a], c.size[b])
+    near_mixed = mixed & (rho < FAR_RATIO * hmax)
+    if np.any(near_mixed):
+        m = near_mixed & ~ra  # a is the bar
+        if np.any(m):
+            out[m] = parallel_bar_round(zero[m], la[m], lo[m], hi[m], dy[m], dz[m],
+                                        c.width[a][m], c.thickness[a][m], c.radius[b][m],
+                                        c.inner[b][m])
+        m = near_mixed & ra  # a is the round conductor: swap the roles
+        if np.any(m):
+            out[m] = parallel_bar_round(lo[m], hi[m], zero[m], la[m], -dy[m], -dz[m],
+                                        c.width[b][m], c.thickness[b][m], c.radius[a][m],
+                                        c.inner[a][m])
+    rest = ~bars & ~coax & ~near_mixed
     if np.any(rest):
         m = rest
         var_a = np.where(ra[m], round_section_variance(c.radius[a][m], c.inner[a][m]), 0.0)
