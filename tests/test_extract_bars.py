@@ -36,8 +36,10 @@ def test_hoer_love_function_is_the_sixfold_antiderivative() -> None:
 def test_rectangle_log_kernel_and_published_gmd() -> None:
     """Geometric mean distance of a square: 0.44705 a; of a thin strip: a e^(-3/2) =
     0.22313 a (Rosa & Grover, 'Formulas and tables for the calculation of mutual and
-    self-inductance', Bull. Bureau of Standards 8, 1912, §27; Grover 1946 table 1).
-    Tolerances: 2e-5 (square, 5 published digits), 5e-4 (strip of finite thickness t = 1e-4 a)."""
+    self-inductance', Bull. Bureau of Standards 8, 1912; Grover 1946, tables of
+    geometric mean distances).
+    The square's constant is recalled from memory; e^(-3/2) is exact. Tolerances: 2e-5
+    (square, 5 digits), 5e-4 (strip of finite thickness t = 1e-4 a)."""
     one, zero = np.array([1.0]), np.array([0.0])
     assert np.exp(mean_log_distance(zero, zero, one, one, one, one))[0] == pytest.approx(
         0.44705, rel=2e-5, abs=0)
@@ -74,8 +76,8 @@ def test_bar_self_inductance_exact(length: float, width: float, thickness: float
 def test_bar_self_inductance_grover(l_cm: float, b_cm: float, c_cm: float) -> None:
     """Grover, Inductance Calculations (1946), straight bar of rectangular section:
     L = 0.002 l [ln(2l/(B+C)) + 1/2 + 0.2235 (B+C)/l] uH, l, B, C in cm, an
-    approximation for l >> B + C. Tolerance 0.3% (the formula's own error for
-    l/(B+C) >= 5, Grover's remark on its range)."""
+    approximation for l >> B + C (formula recalled from memory). Tolerance 0.3%: the
+    approximation's own error for l/(B+C) >= 5."""
     grover = 0.002 * l_cm * (np.log(2 * l_cm / (b_cm + c_cm)) + 0.5
                              + 0.2235 * (b_cm + c_cm) / l_cm) * 1e-6
     got = bar_self_inductance(np.array([l_cm / 100]), np.array([b_cm / 100]),
@@ -171,7 +173,7 @@ def test_parallel_bars_against_scipy_cubature() -> None:
     ((-0.5, 2, 0.2), (0.7, 2.2, 1.4)),
 ])
 def test_filament_mutual_against_quadrature(pb: tuple[float, ...], qb: tuple[float, ...]) -> None:
-    """Neumann's formula in closed form (Grover 1946 ch. 11; Campbell 1915) against scipy
+    """Neumann's formula in closed form (Grover 1946; skew extension) against scipy
     quad of the same double line integral with the inner integral done analytically.
     Tolerance 1e-9."""
     pa, qa = np.zeros(3), EX
@@ -187,10 +189,11 @@ def test_filament_mutual_perpendicular_is_zero() -> None:
 
 
 def test_grover_filaments_meeting_at_an_angle() -> None:
-    """Grover 1946 ch. 11: two filaments of lengths l, m meeting at a point at angle
+    """Grover 1946, filaments meeting at a point: two filaments of lengths l, m meeting at a point at angle
     theta, both directed away from the common point:
     M = mu0/(4 pi) 2 cos(theta) [l atanh(m/(l+R)) + m atanh(l/(m+R))],
-    R^2 = l^2 + m^2 - 2 l m cos(theta). Tolerance 1e-12."""
+    R^2 = l^2 + m^2 - 2 l m cos(theta) (recalled from memory; the quadrature test above
+    checks the same closed form independently). Tolerance 1e-12."""
     for l_, m_, theta in [(1.0, 1.0, np.pi / 4), (2.0, 0.5, np.pi / 3), (1.0, 3.0, 2.0)]:
         pa, qa = np.zeros(3), l_ * EX
         qb = m_ * np.array([np.cos(theta), np.sin(theta), 0.0])

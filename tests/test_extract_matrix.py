@@ -150,7 +150,7 @@ def _hammerstad_jensen_l(u: float) -> float:
     """Hammerstad & Jensen, 'Accurate models for microstrip computer-aided design', IEEE
     MTT-S Int. Microwave Symp. Digest, 1980: Z01(u) = eta0/(2 pi) ln(f(u)/u + sqrt(1 + 4/u^2)),
     f(u) = 6 + (2 pi - 6) exp(-(30.666/u)^0.7528), zero thickness, eps_r = 1 (stated
-    accuracy 0.03% for u <= 1000). L' = Z01 / c (H/m)."""
+    accuracy 0.03% for u <= 1000; coefficients recalled from memory). L' = Z01 / c (H/m)."""
     f = 6 + (2 * np.pi - 6) * np.exp(-((30.666 / u) ** 0.7528))
     z0 = 376.730313 / (2 * np.pi) * np.log(f / u + np.sqrt(1 + 4 / u**2))
     return float(z0 / 299792458.0)

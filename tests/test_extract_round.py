@@ -16,7 +16,7 @@ def _g(x: np.ndarray, rho: np.ndarray) -> np.ndarray:
 
 def _coaxial_reference(a0: float, a1: float, b0: float, b1: float, ro1: float, ri1: float,
                        ro2: float, ri2: float, rtol: float = 1e-8) -> float:
-    """Independent reference: the mean of the parallel-filament formula (Grover 1946 ch. 4)
+    """Independent reference: the mean of the parallel-filament formula (Grover 1946, parallel filaments)
     over both annular sections, as a three-fold integral over the two radii and the
     angle between the points (scipy.integrate.cubature)."""
     def f(u: np.ndarray) -> np.ndarray:
@@ -38,7 +38,7 @@ def _coaxial_reference(a0: float, a1: float, b0: float, b1: float, ro1: float, r
     (0, 0.5e-3, -0.5e-3, 0.0, 0.15e-3, 0.125e-3, 0.15e-3, 0.125e-3),  # via and its image
 ])
 def test_coaxial_mutual_against_cubature(case: tuple[float, ...]) -> None:
-    """Covariogram quadrature (lens areas of circles: Santalo 1976 ch. 4) against scipy
+    """Covariogram quadrature (lens areas of circles; Santalo 1976) against scipy
     cubature of the filament formula over both sections. Tolerance 1e-5."""
     ref = _coaxial_reference(*case)
     got = coaxial_round_mutual(*(np.array([v]) for v in case))[0]
@@ -102,7 +102,7 @@ def test_annulus_overlap_limits() -> None:
 def _parallel_round_reference(length: float, dist: float, offset: float, ro1: float, ri1: float,
                               ro2: float, ri2: float) -> float:
     """Independent reference for two parallel, side-by-side round conductors: the
-    parallel-filament formula (Grover 1946 ch. 4) averaged over both annular sections in
+    parallel-filament formula (Grover 1946, parallel filaments) averaged over both annular sections in
     polar coordinates (four-fold scipy cubature)."""
     def f(u: np.ndarray) -> np.ndarray:
         r1 = ri1 + (ro1 - ri1) * u[:, 0]

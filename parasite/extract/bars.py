@@ -21,7 +21,7 @@ therefore evaluated in a form that keeps its precision:
   filament function ``g`` (:mod:`parasite.extract.filaments`);
 * for |x| >= X* = 8 rho_max, ``Psi`` is its convergent series in rho/|x|
   (``E[ln rho]`` from the exact rectangle-to-rectangle geometric mean distance,
-  Grover 1946 ch. 3; Hoer & Love 1965 in two dimensions; ``E[rho^2k]`` exact);
+  Grover 1946, geometric mean distances; Hoer & Love 1965 in two dimensions; ``E[rho^2k]`` exact);
 * for |x| < X*, ``Psi`` is Hoer & Love's cross-section sum, anchored to the
   series at X* (both are even in x, so they differ by a constant only).
 
@@ -74,7 +74,7 @@ def hoer_love_f(x: np.ndarray, y: np.ndarray, z: np.ndarray) -> np.ndarray:
 def rect_log_kernel(y: np.ndarray, z: np.ndarray) -> np.ndarray:
     """G with d^4 G/(dy^2 dz^2) = ln sqrt(y^2 + z^2) (m^4): the two-dimensional
     analogue of :func:`hoer_love_f`, giving the geometric mean distance of
-    rectangles (Grover 1946 ch. 3; Hoer & Love 1965). Even in both arguments.
+    rectangles (Grover 1946, geometric mean distances; Hoer & Love 1965). Even in both arguments.
 
     ``G = (6 y^2 z^2 - y^4 - z^4) ln(y^2+z^2)/48 + (y^3 z atan(z/y) + y z^3 atan(y/z))/6
     - 25 y^2 z^2 / 48``.
@@ -184,7 +184,7 @@ def parallel_filaments_corrected(a0: np.ndarray, a1: np.ndarray, b0: np.ndarray,
                                  m2z: np.ndarray, m4_iso: np.ndarray | None = None
                                  ) -> np.ndarray:
     """Mutual inductance (H) of parallel conductors far apart: the centre filaments
-    (Grover 1946 ch. 4) plus the second-moment correction over the cross-sections,
+    (Grover 1946, parallel filaments) plus the second-moment correction over the cross-sections,
     ``0.5 (m2y d2g/dy2 + m2z d2g/dz2)`` per corner term, with m2y, m2z (m^2) the
     variances of the difference of two points of the cross-sections along y and z
     (w^2/12 per bar of width w; (r_o^2 + r_i^2)/4 per round conductor). Needs

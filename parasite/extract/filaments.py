@@ -11,14 +11,15 @@ perpendicular ones M = 0 exactly.
 Closed forms used here:
 
 * parallel filaments at distance rho with axial offsets (Grover, *Inductance
-  Calculations*, 1946, ch. 4, in the corner-sum form; Ruehli, "Inductance
+  Calculations*, 1946, parallel filaments, in the corner-sum form; Ruehli, "Inductance
   calculations in a complex integrated circuit environment", IBM J. Res. Dev.
   16(5), 1972): ``Int Int = sum_i s_i g(x_i, rho)`` with
   ``g(x, rho) = x asinh(x/rho) - sqrt(x^2 + rho^2)``;
 * filaments at any angle (coplanar or skew): the double antiderivative of 1/R
   in coordinates measured from the feet of the common perpendicular (Grover
-  1946, ch. 11, "filaments inclined to one another", generalised to skew lines
-  by Campbell, Proc. R. Soc. A 91, 1915); checked against mpmath quadrature
+  1946, "filaments inclined to one another", for coplanar filaments; the same
+  double antiderivative with the common perpendicular's length d for skew
+  lines, derived here); checked against scipy quadrature
   in the tests.
 
 Everything is in SI units: lengths in m, inductance in H.
@@ -69,7 +70,7 @@ def g_parallel(x: np.ndarray, rho: np.ndarray) -> np.ndarray:
 def parallel_filament_integral(a0: np.ndarray, a1: np.ndarray, b0: np.ndarray, b1: np.ndarray,
                                rho: np.ndarray) -> np.ndarray:
     """``Int_{a0}^{a1} Int_{b0}^{b1} ds dt / sqrt((t-s)^2 + rho^2)`` (m), parallel filaments
-    along a common axis, distance rho apart (Grover 1946 ch. 4; Ruehli 1972)."""
+    along a common axis, distance rho apart (Grover 1946, parallel filaments; Ruehli 1972)."""
     x = corner_differences(a0, a1, b0, b1)
     return np.sum(CORNER_SIGNS * g_parallel(x, np.asarray(rho, dtype=float)[..., None]), axis=-1)
 
@@ -101,8 +102,8 @@ def filament_mutual(pa: np.ndarray, qa: np.ndarray, pb: np.ndarray, qb: np.ndarr
 
     Arrays of shape (..., 3) in m, broadcast together. Perpendicular filaments
     give exactly 0; filaments with sin(theta) < ``parallel_sin`` use the parallel
-    closed form. Neumann's formula in closed form: Grover 1946 ch. 11 (coplanar
-    inclined filaments) and Campbell 1915 (skew filaments).
+    closed form. Neumann's formula in closed form: Grover 1946 (coplanar inclined
+    filaments) and its extension to skew lines (module docstring).
     """
     pa, qa, pb, qb = (np.asarray(v, dtype=float) for v in (pa, qa, pb, qb))
     da, db = qa - pa, qb - pb

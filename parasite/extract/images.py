@@ -8,8 +8,8 @@ horizontal components reversed, vertical kept). Here an image segment is stored
 as the mirrored geometry (start and end mirrored, so its direction is
 (dx, dy, -dz)) with a factor -1 on every coupling to it, which gives the same
 current. Source: the method of images (Maxwell, *A Treatise on Electricity and
-Magnetism*, 1873, vol. 1 ch. 11; Paul, *Inductance: Loop and Partial*, 2010,
-ch. 5 for partial inductances over a ground plane).
+Magnetism*, 1873; Paul, *Inductance: Loop and Partial*, 2010, for partial
+inductances over a ground plane).
 """
 
 from __future__ import annotations

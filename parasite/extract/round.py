@@ -14,7 +14,7 @@ between a point of one section and a point of the other,
 with G the filament double integral (:func:`parasite.extract.filaments.parallel_filament_integral`)
 and K(rho) the area where section 1 overlaps section 2 shifted by rho (the
 cross-covariogram of two concentric annuli, from the lens area of two circles;
-Santalo, *Integral Geometry and Geometric Probability*, 1976, ch. 4). The long-wire
+Santalo, *Integral Geometry and Geometric Probability*, 1976). The long-wire
 limit is Rosa's formula (Rosa, "The self and mutual inductances of linear
 conductors", Bull. Bureau of Standards 4, 1908): L = mu0 l/(2 pi) (ln(2l/r) - 3/4)
 for a solid wire.
