@@ -63,8 +63,8 @@ def test_solid_round_wire_rosa(ratio: float) -> None:
     wire with uniform current, expanded in r/l: L = mu0/(2 pi) [l ln(2l/r) - 3l/4
     + E(rho) - E(rho^2)/(4l) + E(rho^4)/(32 l^3)] with the published moments of the
     distance between two points of a disc: GMD r e^(-1/4) (Maxwell), mean 128 r/(45 pi),
-    E(rho^2) = r^2, E(rho^4) = 7 r^4/6 (Santalo 1976). Tolerance 1e-6 (the series is
-    truncated at (r/l)^6)."""
+    E(rho^2) = r^2, E(rho^4) = 7 r^4/6 (the first two recalled from memory, the last two
+    elementary). Tolerance 1e-6 (the series is truncated at (r/l)^6)."""
     r = 1e-3
     length = ratio * r
     series = 2e-7 * (length * np.log(2 * length / r) - 0.75 * length + 128 * r / (45 * np.pi)
@@ -78,7 +78,8 @@ def test_solid_round_wire_rosa(ratio: float) -> None:
 
 def test_thin_tube_grover() -> None:
     """A thin-walled tube (current on a circle): GMD = r, mean distance 4r/pi, E(rho^2) =
-    2 r^2 (Grover 1946, tubular conductor). Wall 0.01% of r; tolerance 5e-5."""
+    2 r^2 (Grover 1946, tubular conductor; recalled from memory). Wall 0.01% of r;
+    tolerance 5e-5."""
     r, length = 1e-3, 0.1
     series = 2e-7 * (length * np.log(2 * length / r) - length + 4 * r / np.pi
                      - 2 * r * r / (4 * length))
