@@ -203,6 +203,18 @@ def _num(value: Any) -> str:
 # entry parsers: one per [[kind]], registered in ENTRY_PARSERS
 
 
+def _check_piece_lengths(ctx: Any, path: tuple[Any, ...], points: Sequence[Sequence[float]],
+                         pts_raw: Sequence[Any]) -> None:
+    """Consecutive points of a polyline at least ``snap`` apart (no zero-length piece)."""
+    for k in range(1, len(points)):
+        d = math.dist(points[k - 1], points[k])
+        if d < ctx.snap:
+            ctx.fail(path + ("points", k),
+                     f"zero-length segment: point {pts_raw[k]!r} is {ctx.display(d)} from the "
+                     f"previous point {pts_raw[k - 1]!r}; consecutive points must be at least "
+                     f"snap = {ctx.display(ctx.snap)} apart")
+
+
 def parse_trace_entry(ctx: Context, raw: Any, index: int) -> Trace:
     path: KeyPath = ("trace", index)
     t = ctx.table(raw, path, _TRACE_KEYS, ("net", "layer", "width", "points"))
@@ -219,13 +231,7 @@ def parse_trace_entry(ctx: Context, raw: Any, index: int) -> Trace:
         ctx.fail(path + ("points",),
                  f"must hold at least two points [x, y]; got {len(pts_raw)}")
     points = tuple(ctx.point(p, path + ("points", k)) for k, p in enumerate(pts_raw))
-    for k in range(1, len(points)):
-        d = math.dist(points[k - 1], points[k])
-        if d < ctx.snap:
-            ctx.fail(path + ("points", k),
-                     f"zero-length segment: point {pts_raw[k]!r} is {ctx.display(d)} from the "
-                     f"previous point {pts_raw[k - 1]!r}; consecutive points must be at least "
-                     f"snap = {ctx.display(ctx.snap)} apart")
+    _check_piece_lengths(ctx, path, points, pts_raw)
     name = None
     if "name" in t:
         name = ctx.string(t["name"], path + ("name",), "a name (text)")
@@ -336,13 +342,7 @@ def _probe_lead(ctx: Context, raw: Any, path: KeyPath, contact: ProbeContact,
                  f"a lead starts at its contact: the first point must be [{shown}] "
                  f"({contact_key}.at on the top face of layer {contact.layer!r}); got "
                  f"{pts_raw[0]!r}")
-    for k in range(1, len(points)):
-        d = math.dist(points[k - 1], points[k])
-        if d < ctx.snap:
-            ctx.fail(path + ("points", k),
-                     f"zero-length segment: point {pts_raw[k]!r} is {ctx.display(d)} from the "
-                     f"previous point {pts_raw[k - 1]!r}; consecutive points must be at least "
-                     f"snap = {ctx.display(ctx.snap)} apart")
+    _check_piece_lengths(ctx, path, points, pts_raw)
     return ProbeLead(points=points, radius=radius)
 
 
