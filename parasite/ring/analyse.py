@@ -243,7 +243,7 @@ def analyse_ring(
             "warnings": aug_res.warnings,
         }
         metrics["augmented"] = aug_edges
-        augmented_wave = Waveform("augmented", t_a, v_a)
+        augmented_wave = Waveform("augmented" if probe is None else f"probe {probe}", t_a, v_a)
         loop_info = _pick_loop(list(aug.report.get("loops", [])), loop, routes_path)
         if loop_info is not None:
             report["loop"] = {k: loop_info.get(k) for k in ("name", "inductance", "resistance")}

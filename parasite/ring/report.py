@@ -64,9 +64,11 @@ def format_ring_text(report: dict[str, Any], *, all_edges: bool = False) -> str:
               "overshoot (V)", "settling (ns)"]
     rows: list[list[str]] = []
     sims = report["simulations"]
+    probe = (report.get("probe") or {}).get("name")
     for key in ("ideal", "augmented"):
         if key in sims:
-            rows += _edge_rows(key, sims[key]["edges"], all_edges)
+            label = f"probe {probe}" if key == "augmented" and probe else key
+            rows += _edge_rows(label, sims[key]["edges"], all_edges)
     if report.get("measured"):
         rows += _edge_rows("measured", report["measured"]["edges"], True)
     out += [""] + _table(header, rows, right={1, 3, 4, 5, 6, 7})
