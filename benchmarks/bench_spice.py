@@ -62,6 +62,16 @@ def coupled_deck(n: int) -> str:
     return "\n".join(lines)
 
 
+DEMO_CIR = Path(__file__).resolve().parent.parent / "fixtures" / "demo" / "buck.cir"
+
+
+def demo_augmented() -> str:
+    """The demo's augmented netlist, as `parasite augment` writes it."""
+    from parasite.augment import augment_files
+
+    return augment_files(str(DEMO_CIR), str(DEMO_CIR.with_name("buck.routes.toml"))).netlist_bytes.decode()
+
+
 def run_batch(deck: str) -> dict[str, np.ndarray]:
     result = run_ngspice(deck)
     return dict(result.last.vectors)
@@ -99,7 +109,8 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
     shared = _Shared()
-    cases = [("ring", ring_deck()), ("coupled-20", coupled_deck(20)), ("coupled-60", coupled_deck(60))]
+    cases = [("ring", ring_deck()), ("coupled-20", coupled_deck(20)), ("coupled-60", coupled_deck(60)),
+             ("demo, original", DEMO_CIR.read_text()), ("demo, augmented", demo_augmented())]
     print("| circuit | time points | batch (subprocess) | shared library (PySpice) | same waveform |")
     print("|---|---|---|---|---|")
     for label, deck in cases:
@@ -107,7 +118,8 @@ def main() -> None:
         ts, vs = median_time(lambda d=deck: shared.run(d), args.repeat)
         tb_key = "time"
         npts = len(vb[tb_key])
-        vnode = "v(b)" if "v(b)" in vb else [k for k in vb if k.startswith("v(")][-1]
+        vnode = ("v(b)" if "v(b)" in vb else "v(sw)" if "v(sw)" in vb
+                 else [k for k in vb if k.startswith("v(")][-1])
         snode = vnode[2:-1] if vnode[2:-1] in vs else vnode
         same = (
             len(vs.get("time", [])) == npts
