@@ -104,7 +104,8 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
 
     elements = NameAllocator(netlist.element_names())
     selection = None
-    choice = ThresholdChoice(options.min_coupling or FALLBACK, "no copper", {})
+    choice = ThresholdChoice(FALLBACK if options.min_coupling is None else options.min_coupling,
+                             "no copper carries current", {})
     cards: list[str] = []
     inductor_names: list[str] = []
     if branches:
@@ -126,7 +127,7 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
             choice = choose_threshold(graph, inputs.netlist, branches, Lb, Rb, written,
                                       tolerance=options.loop_tolerance)
         else:
-            choice = ThresholdChoice(options.min_coupling, "given on the command line", {})
+            choice = ThresholdChoice(options.min_coupling, "given (--min-coupling)", {})
         selection = select(choice.min_coupling)
         cards += _branch_cards(extraction, branches, Rb, selection.self_inductance, names,
                                allocator, elements, inductor_names)
