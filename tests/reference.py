@@ -69,28 +69,9 @@ def mutual_parallel_spans(a1: float, a2: float, b1: float, b2: float, distance: 
 
 def mutual_coplanar_polygons(p: list[tuple[float, float]], q: list[tuple[float, float]]) -> float:
     """Mutual inductance of two closed coplanar filament polygons whose sides are
-    all parallel to x or y (Neumann's formula; perpendicular sides give 0).
-    Sums ``mutual_parallel_spans`` over every pair of parallel sides, with the
-    sign of their directions."""
-    def sides(poly: list[tuple[float, float]]) -> list[tuple[tuple[float, float], tuple[float, float]]]:
-        return [(poly[i], poly[(i + 1) % len(poly)]) for i in range(len(poly))]
-
-    total = 0.0
-    for (p0, p1) in sides(p):
-        for (q0, q1) in sides(q):
-            for axis in (0, 1):
-                other = 1 - axis
-                if p0[other] != p1[other] or q0[other] != q1[other]:
-                    continue  # not both along this axis
-                if p0[axis] == p1[axis] or q0[axis] == q1[axis]:
-                    continue
-                d = abs(p0[other] - q0[other])
-                sp = 1.0 if p1[axis] > p0[axis] else -1.0
-                sq = 1.0 if q1[axis] > q0[axis] else -1.0
-                a1, a2 = sorted((p0[axis], p1[axis]))
-                b1, b2 = sorted((q0[axis], q1[axis]))
-                total += sp * sq * mutual_parallel_spans(a1, a2, b1, b2, d)
-    return total
+    all parallel to x or y (Neumann's formula; perpendicular sides give 0):
+    :func:`mutual_coplanar_paths` with each polygon closed on its first point."""
+    return mutual_coplanar_paths([p + p[:1]], [q + q[:1]])
 
 
 def mutual_coplanar_paths(paths_a: list[list[tuple[float, float]]],
@@ -104,13 +85,14 @@ def mutual_coplanar_paths(paths_a: list[list[tuple[float, float]]],
     total = 0.0
     for pa in pieces(paths_a):
         for pb in pieces(paths_b):
-            # a two-point "polygon" has its piece twice (there and back); take the first side only
             total += _piece_mutual(pa[0], pa[1], pb[0], pb[1])
     return total
 
 
 def _piece_mutual(p0: tuple[float, float], p1: tuple[float, float],
                   q0: tuple[float, float], q1: tuple[float, float]) -> float:
+    """Neumann's formula for two pieces along x or y: ``mutual_parallel_spans``
+    with the sign of their directions when parallel, 0 when perpendicular."""
     for axis in (0, 1):
         other = 1 - axis
         if p0[other] != p1[other] or q0[other] != q1[other]:
