@@ -49,7 +49,7 @@ along that walk, then pins, then planes not yet reached. Segment ids are
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -474,19 +474,15 @@ class _Builder:
         near_pieces: dict[tuple[int, int], list[int]] = {}
         near_pins: dict[tuple[int, int], list[int]] = {}
         near_vias: dict[tuple[int, int], list[int]] = {}
-        for lid, (i, j, kind, ref) in layer_pairs.items():
+        for lid, own, other_kind, other in _touching(layer_pairs, 1):
             vit = via_items.get(lid, [])
-            pit = pin_items.get(lid, [])
-            for a, b in ((i, j), (j, i)):
-                m = kind[a] == 1
-                for va, other in zip(ref[a[m]].tolist(), b[m].tolist(), strict=True):
-                    key = vit[va]
-                    if kind[other] == 0:
-                        near_pieces.setdefault(key, []).append(int(ref[other]))
-                    elif kind[other] == 2:
-                        near_pins.setdefault(key, []).append(pit[int(ref[other])])
-                    else:
-                        near_vias.setdefault(key, []).append(vit[int(ref[other])][0])
+            key = vit[own]
+            if other_kind == 0:
+                near_pieces.setdefault(key, []).append(other)
+            elif other_kind == 2:
+                near_pins.setdefault(key, []).append(pin_items.get(lid, [])[other])
+            else:
+                near_vias.setdefault(key, []).append(vit[other][0])
         for vi, (v, plan) in enumerate(zip(r.vias, plans, strict=True)):
             radius = 0.5 * v.diameter
             last = len(plan.layers) - 1
@@ -555,17 +551,12 @@ class _Builder:
         r = self.r
         near_pieces: dict[int, list[int]] = {}
         near_vias: dict[int, list[tuple[int, int]]] = {}
-        for lid, (i, j, kind, ref) in layer_pairs.items():
-            vit = via_items.get(lid, [])
-            pit = pin_items.get(lid, [])
-            for a, b in ((i, j), (j, i)):
-                m = kind[a] == 2
-                for pa, other in zip(ref[a[m]].tolist(), b[m].tolist(), strict=True):
-                    pi = pit[pa]
-                    if kind[other] == 0:
-                        near_pieces.setdefault(pi, []).append(int(ref[other]))
-                    elif kind[other] == 1:
-                        near_vias.setdefault(pi, []).append(vit[int(ref[other])])
+        for lid, own, other_kind, other in _touching(layer_pairs, 2):
+            pi = pin_items.get(lid, [])[own]
+            if other_kind == 0:
+                near_pieces.setdefault(pi, []).append(other)
+            elif other_kind == 1:
+                near_vias.setdefault(pi, []).append(via_items.get(lid, [])[other])
         targets: list[Point2 | str] = []
         for pi, (p, net) in enumerate(zip(r.pins, self.pin_nets, strict=True)):
             la = r.layers[p.layer]
@@ -971,3 +962,15 @@ def build_graph(routes: Routes, pin_nets: Sequence[str], *,
     the rules.
     """
     return _Builder(routes, pin_nets, anchor_pins).run()
+
+
+def _touching(layer_pairs: dict, own_kind: int) -> Iterator[tuple[int, int, int, int]]:
+    """For each touching pair of items of one layer (box-pair sweep results:
+    pair index arrays ``i``, ``j``, item ``kind`` (0 trace piece, 1 via, 2 pin)
+    and ``ref`` (index within its kind)), seen from an item of ``own_kind``:
+    (layer id, own ref, other kind, other ref)."""
+    for lid, (i, j, kind, ref) in layer_pairs.items():
+        for a, b in ((i, j), (j, i)):
+            m = kind[a] == own_kind
+            for own, other in zip(ref[a[m]].tolist(), b[m].tolist(), strict=True):
+                yield lid, own, int(kind[other]), int(ref[other])
