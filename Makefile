@@ -5,7 +5,7 @@ PY     := $(VENV)/bin/python
 SUDO   := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 OUT    ?= build/demo
 
-.PHONY: demo test lint bench ngspice venv clean
+.PHONY: demo test lint bench simulators ngspice venv clean
 
 venv: $(VENV)/.installed
 
@@ -15,14 +15,19 @@ $(VENV)/.installed: pyproject.toml
 	$(PY) -m pip install --quiet -e '.[test,plot]'
 	touch $@
 
-ngspice:
-	@if ! command -v ngspice >/dev/null 2>&1 || ! ldconfig -p | grep -q 'libngspice\.so '; then \
-	  echo "installing ngspice from the Debian packages" >&2; \
+# The two open simulators the augmented netlists are tested in (Debian packages).
+simulators:
+	@if ! command -v ngspice >/dev/null 2>&1 || ! ldconfig -p | grep -q 'libngspice\.so ' \
+	    || ! command -v gnucap >/dev/null 2>&1; then \
+	  echo "installing ngspice and gnucap from the Debian packages" >&2; \
 	  $(SUDO) apt-get update -qq && \
-	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq ngspice libngspice0 libngspice0-dev >/dev/null; \
+	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq \
+	    ngspice libngspice0 libngspice0-dev gnucap >/dev/null; \
 	fi
 
-demo: ngspice venv
+ngspice: simulators
+
+demo: simulators venv
 	@mkdir -p $(OUT)
 	$(VENV)/bin/parasite augment fixtures/demo/buck.cir fixtures/demo/buck.routes.toml \
 	    -o $(OUT)/buck.augmented.cir --report $(OUT)/buck.report.json
@@ -37,14 +42,14 @@ demo: ngspice venv
 	    --probe sw-spring --plot $(OUT)/buck.probe-sw-spring.png
 	@echo; echo "Pictures in $(OUT)/: buck.ring.png, buck.probe-sw-long-ground.png, buck.probe-sw-spring.png"
 
-test: ngspice venv
+test: simulators venv
 	$(PY) -m pytest
 
 lint: venv
 	$(VENV)/bin/ruff check parasite geometry tests benchmarks
 	$(VENV)/bin/mypy
 
-bench: ngspice venv
+bench: simulators venv
 	$(PY) benchmarks/run_all.py
 
 clean:

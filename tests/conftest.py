@@ -8,6 +8,11 @@ import subprocess
 
 import numpy
 import scipy
+from hypothesis import settings
+
+# Tests write only under pytest's tmp_path: no example database in the work tree.
+settings.register_profile("parasite", database=None)
+settings.load_profile("parasite")
 
 
 def _ngspice_version() -> str:

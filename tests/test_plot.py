@@ -141,8 +141,6 @@ def test_png_decodes_with_the_layer_colours():
     reddish = np.sum((rgb[:, 0] > 0.6) & (rgb[:, 1] < 0.45) & (rgb[:, 2] < 0.45))
     bluish = np.sum((rgb[:, 2] > 0.6) & (rgb[:, 0] < 0.45))
     assert reddish > 1000 and bluish > 1000  # top layer in reds, bottom in blues
-    with open("/tmp/plots/hand_couplings.png", "wb") as fh:
-        fh.write(data)
 
 
 def test_couplings_panel_orders_segments_by_net():
@@ -212,8 +210,6 @@ def test_plot_command_png_with_couplings(tmp_path):
     assert result.exit_code == 0, result.output
     image = mpimg.imread(str(out))
     assert image.shape[1] > image.shape[0] > 500
-    with open("/tmp/plots/rect_couplings.png", "wb") as fh:
-        fh.write(out.read_bytes())
 
 
 def test_plot_command_errors(tmp_path, monkeypatch):
