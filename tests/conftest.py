@@ -5,12 +5,16 @@ from __future__ import annotations
 
 import shutil
 import subprocess
+import tempfile
 
 import numpy
 import scipy
 from hypothesis import settings
+from hypothesis.configuration import set_hypothesis_home_dir
 
-# Tests write only under pytest's tmp_path: no example database in the work tree.
+# Tests write nothing into the work tree: no example database, and hypothesis's own
+# storage (constants, unicode tables) in a fresh folder under TMPDIR.
+set_hypothesis_home_dir(tempfile.mkdtemp(prefix="parasite-hypothesis-"))
 settings.register_profile("parasite", database=None)
 settings.load_profile("parasite")
 
