@@ -10,8 +10,8 @@ import pytest
 
 from geometry.model import Copper, SegmentArrays
 from parasite.errors import ExtractionError
-from parasite.extract.couplings import choose_couplings, format_k, written_matrix
 from parasite.extract.resistance import resistances, skin_depth
+from parasite.network.couplings import choose_couplings, format_k, written_matrix
 from tests.reference import gmd_rectangle, mutual_parallel_filaments, self_straight_gmd
 
 

@@ -9,9 +9,10 @@ import pytest
 
 from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
-from parasite.extract import choose_couplings, inductance_matrix, self_inductances
+from parasite.extract import inductance_matrix, self_inductances
 from parasite.extract.inclined import inclined_mutual
 from parasite.extract.matrix import FAR_RULES, _conductors, _mutual
+from parasite.network.couplings import choose_couplings
 
 
 def _arrays(start: list, end: list, width: list, thickness: list, rnd: list, radius: list,

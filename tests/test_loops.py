@@ -21,7 +21,7 @@ import math
 import numpy as np
 import pytest
 
-from parasite.loops import branch_currents, solve_port, top_pair_terms
+from parasite.network.solve import branch_currents, solve_port, top_pair_terms
 
 MU0 = 4e-7 * math.pi  # H/m
 
@@ -272,7 +272,8 @@ def test_meshed_network_matches_ngspice_ac(seed, frequency):
 
 
 def test_loop_table_is_aligned_and_reads_results_or_their_dicts():
-    from parasite.loops import LoopResult, engineering, format_loop_table, loop_result_dict
+    from parasite.loops import LoopResult, format_loop_table, loop_result_dict
+    from parasite.units import engineering
 
     results = [
         LoopResult("hot loop", 2.4133e-9, 4.1e-3, 1e8, 2e-9, False,

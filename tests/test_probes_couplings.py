@@ -9,8 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from parasite.extract.couplings import smallest_eigenvalue, written_matrix
-from parasite.probes import select_couplings
+from parasite.network.couplings import select_couplings, smallest_eigenvalue, written_matrix
 from tests.reference import mutual_parallel_filaments, self_straight_gmd
 
 
@@ -47,7 +46,7 @@ def test_every_lead_coupling_is_written_exactly(threshold: float) -> None:
 
 
 def test_without_leads_it_is_the_plain_selection() -> None:
-    from parasite.extract.couplings import choose_couplings
+    from parasite.network.couplings import choose_couplings
 
     L = _matrix([0, 1, 2, 30])
     a = select_couplings(L, 0.05, np.zeros(4, dtype=bool))

@@ -19,12 +19,19 @@ loop inductances come out slightly high, never low).
 
 from __future__ import annotations
 
+import math
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.linalg
 
 from parasite.errors import ExtractionError
+
+if TYPE_CHECKING:
+    from geometry.model import CopperGraph
+    from parasite.network.branches import Branch
 
 K_DIGITS = 10
 
@@ -115,3 +122,65 @@ def choose_couplings(L: np.ndarray, min_coupling: float, *, margin: float = 1e-3
     return CouplingSelection(i=i, j=j, k=k, self_inductance=self_l, method=method, note=note,
                              min_eigenvalue=lam, dropped=int(np.count_nonzero(~keep & nonzero)),
                              kept=int(keep.sum()))
+
+
+def lead_branches(graph: CopperGraph, branches: Sequence[Branch]) -> np.ndarray:
+    """Boolean mask of the branches made of probe-lead segments."""
+    return np.array([graph.segments[b.segments[0]].kind == "probe" for b in branches],
+                    dtype=bool)
+
+
+def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
+                     margin: float = 1e-3) -> CouplingSelection:
+    """Couplings to write: those of the circuit's branches chosen by
+    :func:`choose_couplings` (threshold, diagonal
+    compensation where needed), plus every non-zero coupling of a probe-lead
+    branch (``leads`` True) with any other branch, written exactly.
+
+    The written matrix stays positive definite: when the threshold alone
+    leaves the circuit block with ``Lw >= L`` not guaranteed and the combined
+    matrix's smallest eigenvalue falls below ``margin`` times the full
+    matrix's, the circuit block is compensated on its diagonal (then
+    ``Lw_cc >= L_cc``, so the Schur complement of the leads is at least that
+    of the exact matrix, which is positive)."""
+    leads = np.asarray(leads, dtype=bool)
+    if not leads.any():
+        return choose_couplings(Lb, min_coupling, margin=margin)
+    Lb = 0.5 * (Lb + Lb.T)
+    circ = np.flatnonzero(~leads)
+    lam_full = smallest_eigenvalue(Lb)
+    if lam_full <= 0:
+        raise ExtractionError(
+            f"the extracted inductance matrix with the probe leads is not positive definite "
+            f"(smallest eigenvalue {lam_full:.3e} H): does a lead run through copper?")
+
+    def combine(sub: CouplingSelection) -> CouplingSelection:
+        n = Lb.shape[0]
+        self_l = np.array([float(f"{v:.10e}") for v in np.diag(Lb).tolist()])
+        self_l[circ] = sub.self_inductance
+        iu, ju = np.triu_indices(n, 1)
+        lead_pair = (leads[iu] | leads[ju]) & (Lb[iu, ju] != 0.0)
+        i = np.concatenate([circ[sub.i], iu[lead_pair]])
+        j = np.concatenate([circ[sub.j], ju[lead_pair]])
+        d = np.sqrt(self_l)
+        k_lead = _round_k(Lb[iu[lead_pair], ju[lead_pair]] / (d[iu[lead_pair]] * d[ju[lead_pair]]))
+        k = np.concatenate([sub.k, k_lead])
+        order = np.lexsort((j, i))
+        i, j, k = i[order], j[order], k[order]
+        lam = smallest_eigenvalue(written_matrix(self_l, i, j, k))
+        n_lead = int(np.count_nonzero(lead_pair))
+        return CouplingSelection(
+            i=i, j=j, k=k, self_inductance=self_l, method=sub.method,
+            note=(sub.note + ("; " if sub.note else "")
+                  + f"{n_lead} couplings of probe leads written whatever their |k|"),
+            min_eigenvalue=lam, dropped=sub.dropped, kept=sub.kept + n_lead)
+
+    Lcc = Lb[np.ix_(circ, circ)]
+    out = combine(choose_couplings(Lcc, min_coupling, margin=margin))
+    if out.min_eigenvalue < margin * lam_full:
+        out = combine(choose_couplings(Lcc, min_coupling, margin=math.inf))
+    if out.min_eigenvalue <= 0:
+        raise ExtractionError(
+            f"could not write a positive definite inductance matrix with the probe leads "
+            f"(smallest eigenvalue {out.min_eigenvalue:.3e} H)")
+    return out

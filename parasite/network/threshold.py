@@ -9,7 +9,7 @@ the largest candidate for which the inductance of every ``[[loop]]`` of the
 routes file, computed from the matrix exactly as it would be written, stays
 within ``tolerance`` of the value from the full matrix. The loop values come
 from the same nodal analysis as the report's loops
-(:func:`parasite.loops.solve_port`), applied to the branches (series chains
+(:func:`parasite.network.solve.solve_port`), applied to the branches (series chains
 merged), which is exact for the branch currents. A board without loops gets
 ``FALLBACK`` and the report says that no loop checked it.
 """
@@ -22,7 +22,9 @@ from typing import Any
 
 import numpy as np
 
-from parasite.branches import Branch
+from parasite.network.branches import Branch
+from parasite.network.ports import loop_port
+from parasite.network.solve import solve_port
 
 CANDIDATES = (0.05, 0.02, 0.01, 0.005, 0.002, 0.001, 0.0005, 0.0)
 """|k| thresholds tried, largest first; 0 writes every non-zero coupling."""
@@ -43,12 +45,10 @@ class ThresholdChoice:
 
 def _loop_ports(graph: Any, netlist: Any, branches: Sequence[Branch]) -> list[Any]:
     """Per loop: (name, frequency, branch indices in its nets, injection, node count)."""
-    from parasite.loops import _loop_network
-
     first_seg = np.array([b.segments[0] for b in branches], dtype=int)
     ports = []
     for spec in graph.routes.loops:
-        segments, injection, n_nodes = _loop_network(spec, graph, netlist)
+        segments, injection, n_nodes = loop_port(spec, graph, netlist)
         sel = np.flatnonzero(np.isin(first_seg, segments))
         ports.append((spec.name, float(spec.frequency or 0.0), sel, injection, n_nodes))
     return ports
@@ -57,8 +57,6 @@ def _loop_ports(graph: Any, netlist: Any, branches: Sequence[Branch]) -> list[An
 def loop_inductances(ports: list[Any], branches: Sequence[Branch], L: np.ndarray,
                      R: np.ndarray) -> dict[str, float]:
     """Inductance (H) of every loop port on the branch network with matrix ``L``."""
-    from parasite.loops import solve_port
-
     nf = np.array([b.node_from for b in branches], dtype=np.int64)
     nt = np.array([b.node_to for b in branches], dtype=np.int64)
     out = {}
