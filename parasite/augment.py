@@ -112,7 +112,7 @@ def augment_text(netlist: str | bytes, routes: str | bytes, *,
     return _run(inputs, min_coupling, frequency, keep_segments, progress)
 
 
-def report_text_of(netlist: str | bytes, routes: str | bytes, *, fmt: str = "json",
+def report_of(netlist: str | bytes, routes: str | bytes, *, fmt: str = "json",
                    table: str = "segments", **options: Any) -> str:
     """The report of :func:`augment_text` formatted as ``parasite report`` writes
     it: ``fmt`` ``json``, ``text`` or ``csv`` (with ``table`` ``segments``,

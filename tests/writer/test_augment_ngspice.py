@@ -12,6 +12,7 @@ import pytest
 
 from parasite.augment import augment_files
 from parasite.spice import run_ngspice
+from tests.boards import ONE_LAYER, pin, trace
 from tests.reference import gmd_rectangle, mutual_parallel_filaments, rectangle_loop, self_straight_gmd
 
 pytestmark = pytest.mark.ngspice
@@ -26,16 +27,7 @@ def _write(tmp: Path, netlist: str, routes: str) -> tuple[str, str]:
     return str(n), str(r)
 
 
-def _trace(net: str, pts: list[tuple[float, float]], width: float, layer: str = "top") -> str:
-    p = ", ".join(f"[{x:.6f}, {y:.6f}]" for x, y in pts)
-    return f'[[trace]]\nnet = "{net}"\nlayer = "{layer}"\nwidth = {width}\npoints = [{p}]\n\n'
-
-
-def _pin(term: str, at: tuple[float, float], layer: str = "top") -> str:
-    return f'[[pin]]\nterminal = "{term}"\nat = [{at[0]:.6f}, {at[1]:.6f}]\nlayer = "{layer}"\n\n'
-
-
-HEAD = 'format = "parasite-routes/1"\nunits = "mm"\n\n[layers.top]\nz = 1.565\nthickness = 0.035\n\n'
+_trace, _pin, HEAD = trace, pin, ONE_LAYER
 
 PORT_NETLIST = """port test (AC drive of a copper loop)
 I1 p n AC 1

@@ -27,9 +27,10 @@ import pytest
 
 from geometry.errors import RoutesError
 from geometry.routes import parse_routes
+from tests.boards import ROOT
 from tests.test_augment_ngspice import HEAD, _pin, _trace
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 FIXTURE = ROOT / "fixtures" / "routes" / "probe_resistor.routes.toml"
 
 NETLIST = """lead resonance of a probe across a source (test scenario)

@@ -13,8 +13,10 @@ import pytest
 from click.testing import CliRunner
 
 from parasite.cli import main
+from tests.boards import DEMO as DEMO_DIR
+from tests.boards import FIXTURES
 
-DEMO = Path(__file__).resolve().parent.parent / "fixtures" / "demo"
+DEMO = DEMO_DIR
 NO_COPPER = """format = "parasite-routes/1"
 units = "mm"
 
@@ -31,7 +33,7 @@ def _run(*args: str) -> subprocess.CompletedProcess[bytes]:
 def test_no_copper_gives_the_input_back_byte_for_byte(tmp_path: Path) -> None:
     """With a routes file that places no copper the output is the input, byte
     for byte (command-line contract), also for CRLF and odd-case netlists."""
-    fixtures = Path(__file__).resolve().parent.parent / "fixtures" / "netlists"
+    fixtures = FIXTURES / "netlists"
     routes = tmp_path / "empty.routes.toml"
     routes.write_text(NO_COPPER)
     for netlist in sorted(fixtures.glob("*.cir"))[:6] + [DEMO / "buck.cir"]:

@@ -13,8 +13,9 @@ import pytest
 
 from parasite.augment import augment_files
 from parasite.spice import run_ngspice
+from tests.boards import ROOT
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "benchmarks"))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 from bench_threshold import F_AC, board  # noqa: E402
 
 pytestmark = pytest.mark.ngspice

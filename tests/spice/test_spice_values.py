@@ -18,8 +18,9 @@ from pathlib import Path
 import pytest
 
 from geometry.values import parse_spice_number
+from tests.boards import ROOT
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 
 # text, the decimal value it denotes written as a Python float literal
 EXACT = [

@@ -17,8 +17,9 @@ from geometry.errors import RoutesError
 from geometry.graph import build_graph
 from geometry.routes import load_routes, parse_routes
 from parasite.errors import ParasiteError
+from tests.boards import ROUTES as ROUTES_DIR
 
-BAD = Path(__file__).resolve().parent.parent / "fixtures" / "routes" / "bad"
+BAD = ROUTES_DIR / "bad"
 
 # file stem -> (line, key path, regex for the value and what is accepted)
 CASES: dict[str, tuple[int | None, str | None, str]] = {

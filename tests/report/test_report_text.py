@@ -13,11 +13,12 @@ two lists of terms.
 from __future__ import annotations
 
 import re
-from pathlib import Path
 
 import pytest
 
-ROOT = Path(__file__).resolve().parent.parent
+from tests.boards import ROOT
+
+ROOT = ROOT
 DEMO = ROOT / "fixtures" / "demo"
 ROUTES = ROOT / "fixtures" / "routes"
 TOP = 5

@@ -4,7 +4,6 @@ anchors. Expected nets are read off the netlist cards by hand."""
 from __future__ import annotations
 
 import re
-from pathlib import Path
 
 import pytest
 
@@ -14,8 +13,9 @@ from geometry.routes import load_routes, parse_routes
 from parasite.errors import NetlistError
 from parasite.netlist import read_netlist
 from parasite.pins import resolve_pin_nets, resolve_pins
+from tests.boards import ROOT
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 
 HEAD = """format = "parasite-routes/1"
 units = "mm"

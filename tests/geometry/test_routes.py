@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import json
 import sys
-from pathlib import Path
 
 import pytest
 
@@ -13,14 +12,16 @@ from geometry.locate import format_path, json_lines, toml_lines
 from geometry.model import Copper, canonical_net
 from geometry.routes import ENTRY_PARSERS, load_routes, parse_routes
 from geometry.values import parse_spice_number
+from tests.boards import DEMO as DEMO_DIR
+from tests.boards import ROUTES as ROUTES_DIR
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover
     import tomli as tomllib
 
-ROUTES = Path(__file__).resolve().parent.parent / "fixtures" / "routes"
-DEMO = Path(__file__).resolve().parent.parent / "fixtures" / "demo" / "buck.routes.toml"
+ROUTES = ROUTES_DIR
+DEMO = DEMO_DIR / "buck.routes.toml"
 
 
 def test_units_converted_to_metres_once() -> None:

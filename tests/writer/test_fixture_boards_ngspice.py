@@ -11,10 +11,11 @@ import pytest
 
 from parasite.augment import augment_files
 from parasite.spice import run_ngspice
+from tests.boards import ROOT
 
 pytestmark = pytest.mark.ngspice
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 BOARDS = sorted(
     [p for p in (ROOT / "fixtures" / "routes").glob("*.routes.*")
      if (p.parent / (p.name.split(".routes.")[0] + ".cir")).exists()]

@@ -18,24 +18,15 @@ References:
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
 
+from tests.boards import TWO_LAYERS, write
+
 MU0 = 4e-7 * math.pi
 
-HEADER = """format = "parasite-routes/1"
-units = "mm"
-
-[layers.top]
-z = 1.565
-thickness = 0.035
-
-[layers.bottom]
-z = 0.0
-thickness = 0.035
-"""
+HEADER = TWO_LAYERS
 
 
 def grover_rectangle(a: float, b: float, gmd: float) -> float:
@@ -46,12 +37,6 @@ def grover_rectangle(a: float, b: float, gmd: float) -> float:
         a * math.log(2 * a / gmd) + b * math.log(2 * b / gmd) + 2 * d
         - a * math.asinh(a / b) - b * math.asinh(b / a) - 2 * (a + b)
     )
-
-
-def write(tmp_path: Path, name: str, text: str) -> str:
-    p = tmp_path / name
-    p.write_text(text)
-    return str(p)
 
 
 def run_loops(netlist: str, routes: str):

@@ -28,6 +28,7 @@ from scipy.integrate import dblquad
 
 from parasite.augment import augment_files
 from parasite.spice import run_ngspice
+from tests.boards import ROUTES as ROUTES_DIR
 from tests.test_augment_ngspice import HEAD, _pin, _trace
 
 pytestmark = pytest.mark.ngspice
@@ -299,7 +300,7 @@ def test_probe_loop_along_the_flux_reads_nothing(tmp_path: Path) -> None:
     assert abs(readings[0.0]) < 1e-6 * abs(emf)
 
 
-FIXTURES = Path(__file__).resolve().parent.parent / "fixtures" / "routes"
+FIXTURES = ROUTES_DIR
 
 
 @pytest.mark.parametrize("own_save", [False, True])

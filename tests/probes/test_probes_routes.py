@@ -6,7 +6,6 @@ values the docs give as common practice."""
 from __future__ import annotations
 
 import math
-from pathlib import Path
 from typing import Literal
 
 import pytest
@@ -15,8 +14,9 @@ from geometry.errors import RoutesError
 from geometry.graph import build_graph
 from geometry.model import INSTRUMENT_PRESETS, Routes
 from geometry.routes import load_routes, parse_routes
+from tests.boards import ROOT
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 FIXTURE = ROOT / "fixtures" / "routes" / "probe_resistor.routes.toml"
 PIN_NETS = ["a", "a", "b", "b", "0", "0"]
 MM = 1e-3

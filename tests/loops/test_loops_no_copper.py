@@ -16,9 +16,10 @@ from pathlib import Path
 
 import pytest
 
+from tests.boards import ROOT
 from tests.reference import gmd_rectangle, self_straight_gmd
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 ROUTES = ROOT / "fixtures" / "routes"
 
 

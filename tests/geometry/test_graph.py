@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import math
 from collections import Counter
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -13,8 +12,9 @@ import pytest
 from geometry.graph import build_graph
 from geometry.model import CopperGraph
 from geometry.routes import load_routes, parse_routes
+from tests.boards import ROOT
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = ROOT
 ROUTES = ROOT / "fixtures" / "routes"
 MM = 1e-3
 

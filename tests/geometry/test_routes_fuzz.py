@@ -8,7 +8,6 @@ from __future__ import annotations
 import copy
 import json
 import sys
-from pathlib import Path
 from typing import Any
 
 from hypothesis import given, settings
@@ -17,13 +16,14 @@ from hypothesis import strategies as st
 from geometry.errors import RoutesError
 from geometry.graph import build_graph
 from geometry.routes import parse_routes
+from tests.boards import DEMO as DEMO_DIR
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover
     import tomli as tomllib
 
-DEMO = Path(__file__).resolve().parent.parent / "fixtures" / "demo" / "buck.routes.toml"
+DEMO = DEMO_DIR / "buck.routes.toml"
 BASE = tomllib.loads(DEMO.read_text())
 
 json_values = st.recursive(
