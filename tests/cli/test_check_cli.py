@@ -18,7 +18,7 @@ from pathlib import Path
 
 import pytest
 
-from tests.test_loops_pipeline import RECT_NET, grover_rectangle, rect_routes
+from tests.loops.test_loops_pipeline import RECT_NET, grover_rectangle, rect_routes
 
 PARASITE = [sys.executable, "-m", "parasite"]
 REF = grover_rectangle(0.040, 0.020, 0.2235 * (1e-3 + 35e-6))

@@ -167,7 +167,7 @@ def test_missing_matplotlib_is_a_clear_error(monkeypatch):
 
 
 def _cli_files(tmp_path):
-    from tests.test_loops_pipeline import RECT_NET, rect_routes
+    from tests.loops.test_loops_pipeline import RECT_NET, rect_routes
 
     (tmp_path / "board.cir").write_text(RECT_NET)
     (tmp_path / "board.routes.toml").write_text(rect_routes())

@@ -27,8 +27,10 @@ import pytest
 
 from geometry.errors import RoutesError
 from geometry.routes import parse_routes
+from tests.boards import ONE_LAYER as HEAD
 from tests.boards import ROOT
-from tests.test_augment_ngspice import HEAD, _pin, _trace
+from tests.boards import pin as _pin
+from tests.boards import trace as _trace
 
 ROOT = ROOT
 FIXTURE = ROOT / "fixtures" / "routes" / "probe_resistor.routes.toml"

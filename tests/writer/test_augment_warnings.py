@@ -6,7 +6,9 @@ from __future__ import annotations
 from pathlib import Path
 
 from parasite.augment import augment_files
-from tests.test_augment_ngspice import HEAD, _pin, _trace
+from tests.boards import ONE_LAYER as HEAD
+from tests.boards import pin as _pin
+from tests.boards import trace as _trace
 
 
 def test_inductor_initial_current_on_a_routed_net_is_warned(tmp_path: Path) -> None:

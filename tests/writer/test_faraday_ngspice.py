@@ -15,8 +15,10 @@ import pytest
 
 from parasite.augment import augment_files
 from parasite.spice import run_ngspice
+from tests.boards import ONE_LAYER as HEAD
+from tests.boards import pin as _pin
+from tests.boards import trace as _trace
 from tests.reference import mutual_coplanar_paths, mutual_coplanar_polygons
-from tests.test_augment_ngspice import HEAD, _pin, _trace
 
 pytestmark = pytest.mark.ngspice
 
