@@ -66,12 +66,12 @@ BLOCK_PAIRS = 200_000  # pairs per vectorised block (bounds the temporaries to a
 FAR_RULES: tuple[tuple[float, int], ...] = ((3.5, 2), (2.0, 3), (1.5, 4), (1.2, 5))
 """(minimum of midpoint distance / longer length, Gauss-Legendre order along each
 centre line) for :func:`far_mutual`. Worst relative error of the line quadrature
-over random pairs at each bound: 8e-5, 2e-5, 1e-5, 4e-5 (tests/test_extract_matrix.py)."""
+over random pairs at each bound: 8e-5, 2e-5, 1e-5, 4e-5 (tests/extract/test_extract_matrix.py)."""
 
 PLAIN_SECTION_RATIO = 30.0
 """Pairs whose least possible distance is at least this many section sizes skip the
 section correction (relative size about (h/D)^2/12, below 1e-4 here; with the line
-quadrature the worst case in tests/test_extract_matrix.py is 6e-5)."""
+quadrature the worst case in tests/extract/test_extract_matrix.py is 6e-5)."""
 
 FAR_SECTION_RATIO = 4.0
 """A pair uses :func:`far_mutual` only if its least possible distance (midpoint distance

@@ -96,7 +96,7 @@ def _probe(name: str, tip: tuple[float, float], ground: tuple[float, float],
 def _square() -> str:
     """The driven loop: a 20 x 20 mm square centred on the origin, 0.5 mm trace,
     cut at the middle of its left side (I1) and right side (R0), gaps 0.6 mm
-    (as in tests/test_faraday_ngspice.py)."""
+    (as in tests/writer/test_faraday_ngspice.py)."""
     s = _trace("dp", [(-10, -0.3), (-10, -10), (10, -10), (10, -0.3)], 0.5)
     s += _trace("dn", [(10, 0.3), (10, 10), (-10, 10), (-10, 0.3)], 0.5)
     s += _pin("I1:1", (-10, -0.3)) + _pin("R0:1", (10, -0.3))
@@ -213,7 +213,7 @@ def test_ground_lead_around_the_flux_adds_its_emf(tmp_path: Path) -> None:
     assert entry["pickup_per_ampere"] == pytest.approx(omega * abs(M), rel=0.02)
 
 
-# The ring of tests/test_faraday_ngspice.py: 40 x 40 mm, net t its top half and
+# The ring of tests/writer/test_faraday_ngspice.py: 40 x 40 mm, net t its top half and
 # net b its bottom half, R1 (100 ohm) cutting its left side and R2 (200 ohm) its
 # right side at y = 0; the square inside it drives the changing flux.
 RING_NETLIST = "R1 t b 100\nR2 t b 200\nRBL b 0 1meg"
