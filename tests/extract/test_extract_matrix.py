@@ -11,7 +11,7 @@ from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
 from parasite.extract import inductance_matrix, self_inductances
 from parasite.extract.inclined import inclined_mutual
-from parasite.extract.matrix import FAR_RULES, _conductors, _mutual
+from parasite.extract.pairs import FAR_RULES, _conductors, _mutual
 from parasite.network.couplings import choose_couplings
 
 
