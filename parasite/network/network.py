@@ -124,10 +124,9 @@ def build_network(extraction: Extraction, options: NetworkOptions | None = None)
     keep |= kept_nodes(graph)
     mask = conducting_segments(graph, keep)
     branches = build_branches(graph, mask, keep, merge=not options.keep_segments)
-    common = dict(node_names=names, reserved_names=allocator.taken(), kept=frozenset(keep),
-                  conducting=mask, branches=branches)
+    reserved, kept = allocator.taken(), frozenset(keep)
     if not branches:
-        return Network(extraction, options, **common,  # type: ignore[arg-type]
+        return Network(extraction, options, names, reserved, kept, mask, branches,
                        threshold=ThresholdChoice(FALLBACK if given is None else given,
                                                  "no copper carries current", {}))
     Lb, Rb = branch_matrices(branches, extraction.L, extraction.R)
@@ -137,5 +136,5 @@ def build_network(extraction: Extraction, options: NetworkOptions | None = None)
                                   tolerance=options.loop_tolerance)
     else:
         choice = ThresholdChoice(given, "given (--min-coupling)", {})
-    return Network(extraction, options, **common, L=Lb, R=Rb,  # type: ignore[arg-type]
+    return Network(extraction, options, names, reserved, kept, mask, branches, Lb, Rb,
                    selection=select(choice.min_coupling), threshold=choice)
