@@ -25,367 +25,50 @@ contact on the layer's top face; ``instrument``, ``"10x"``, ``"1x"`` or
 from __future__ import annotations
 
 import json
-import math
 import re
 import sys
-from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, field
+from collections.abc import Callable, Mapping
 from pathlib import Path
-from typing import Any, Literal, NoReturn
+from typing import Any, Literal
 
 from geometry.errors import RoutesError
-from geometry.locate import KeyPath, LineMap, format_path, json_lines, toml_lines
+from geometry.locate import KeyPath, format_path, json_lines, toml_lines
 from geometry.model import (
-    INSTRUMENT_PRESETS,
     UNIT_SCALE,
     Copper,
-    Instrument,
     Layer,
     LoopSpec,
     NetOptions,
     Pin,
-    Point2,
-    Point3,
     Probe,
-    ProbeContact,
-    ProbeLead,
     Routes,
     Trace,
-    Unit,
     Via,
-    canonical_net,
 )
-from geometry.values import parse_spice_number
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover - Python 3.10
     import tomli as tomllib
-
-FORMAT = "parasite-routes/1"
-DEFAULT_SNAP_M = 1e-6  # m: two points closer than this are one point (spec default)
+from geometry.entries import (
+    parse_loop_entry,
+    parse_pin_entry,
+    parse_trace_entry,
+    parse_via_entry,
+)
+from geometry.probe_entries import parse_probe_entry
+from geometry.routes_context import DEFAULT_SNAP_M, FORMAT, Context, _describe
 
 _TOP_KEYS = ("format", "units", "snap", "copper", "layers", "nets",
              "trace", "via", "pin", "loop", "probe")
 _COPPER_KEYS = ("resistivity", "temperature_coefficient", "reference_temperature", "temperature")
 _LAYER_KEYS = ("z", "thickness", "plane")
-_TRACE_KEYS = ("net", "layer", "width", "points", "name")
-_VIA_KEYS = ("net", "at", "from", "to", "diameter", "wall")
-_PIN_KEYS = ("terminal", "at", "layer")
-_LOOP_KEYS = ("name", "path", "limit", "frequency")
 _NET_KEYS = ("anchor",)
-_NAME_FORBIDDEN = set(" \t\r\n=(),;")
 
+__all__ = ["DEFAULT_SNAP_M", "ENTRY_PARSERS", "FORMAT", "Context", "load_routes", "parse_loop_entry",
+           "parse_pin_entry", "parse_probe_entry", "parse_routes", "parse_trace_entry",
+           "parse_via_entry", "routes_format", "tomllib"]
 
-@dataclass
-class Context:
-    """What an entry parser needs: the file, its line map, the unit scale, the
-    layers, and helpers that check a value and raise a located error."""
-
-    file: str
-    lines: LineMap
-    units: Unit = "m"
-    scale: float = 1.0
-    snap: float = DEFAULT_SNAP_M  # m
-    layers: dict[str, Layer] = field(default_factory=dict)
-
-    # -- errors ---------------------------------------------------------
-    def fail(self, path: KeyPath, message: str) -> NoReturn:
-        raise RoutesError(message, file=self.file, line=self.lines.line_of(path),
-                          key=format_path(path) or None)
-
-    # -- structure ------------------------------------------------------
-    def table(self, value: Any, path: KeyPath, keys: Sequence[str],
-              required: Sequence[str] = ()) -> dict[str, Any]:
-        """Check that ``value`` is a table with only ``keys`` and all of ``required``."""
-        if not isinstance(value, dict):
-            self.fail(path, f"must be a table (TOML) or object (JSON) with keys "
-                            f"{', '.join(keys)}; got {_describe(value)}")
-        for k in value:
-            if k not in keys:
-                self.fail(path + (k,), f"unknown key {k!r}; accepted keys here: {', '.join(keys)}")
-        for k in required:
-            if k not in value:
-                self.fail(path, f"missing required key {k!r} (accepted keys: {', '.join(keys)})")
-        return value
-
-    def array(self, value: Any, path: KeyPath, what: str) -> list[Any]:
-        if not isinstance(value, list):
-            self.fail(path, f"must be an array of {what}; got {_describe(value)}")
-        return value
-
-    # -- scalars --------------------------------------------------------
-    def number(self, value: Any, path: KeyPath, what: str = "a number") -> float:
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            self.fail(path, f"must be {what}; got {_describe(value)}")
-        x = float(value)
-        if not math.isfinite(x):
-            self.fail(path, f"must be {what} (finite); got {value!r}")
-        return x
-
-    def length(self, value: Any, path: KeyPath, *, positive: bool = False,
-               non_negative: bool = False) -> float:
-        """A length in the file's units, returned in metres."""
-        what = f"a {'positive ' if positive else ''}length in {self.units}"
-        if non_negative:
-            what = f"a length >= 0 in {self.units}"
-        x = self.number(value, path, what)
-        if positive and x <= 0:
-            self.fail(path, f"must be {what}; got {_num(value)}")
-        if non_negative and x < 0:
-            self.fail(path, f"must be {what}; got {_num(value)}")
-        return x * self.scale
-
-    def string(self, value: Any, path: KeyPath, what: str = "a string") -> str:
-        if not isinstance(value, str):
-            self.fail(path, f"must be {what}; got {_describe(value)}")
-        if not value.strip():
-            self.fail(path, f"must be {what}, not empty")
-        return value
-
-    def net(self, value: Any, path: KeyPath) -> str:
-        what = "a netlist node name (text without spaces, '=', '(', ')', ',' or ';')"
-        text = self.string(value, path, what)
-        if any(c in _NAME_FORBIDDEN for c in text):
-            self.fail(path, f"must be {what}; got {text!r}")
-        return canonical_net(text)
-
-    def point(self, value: Any, path: KeyPath) -> Point2:
-        what = f"a point [x, y] in {self.units}"
-        if not isinstance(value, list) or len(value) != 2:
-            self.fail(path, f"must be {what}; got {_describe(value)}")
-        x = self.number(value[0], path + (0,), f"a coordinate in {self.units}") * self.scale
-        y = self.number(value[1], path + (1,), f"a coordinate in {self.units}") * self.scale
-        return (x, y)
-
-    def layer(self, value: Any, path: KeyPath) -> str:
-        name = self.string(value, path, "a layer name")
-        if name not in self.layers:
-            known = ", ".join(repr(k) for k in self.layers) or "none are defined"
-            self.fail(path, f"unknown layer {name!r}; the layers are: {known}")
-        return name
-
-    def terminal(self, value: Any, path: KeyPath) -> tuple[str, str, str]:
-        """``"M1:d"`` -> (as written, element lower-case, terminal lower-case)."""
-        what = "a terminal 'ELEMENT:TERMINAL' such as 'M1:d' or 'R3:1'"
-        text = self.string(value, path, what)
-        elem, sep, term = text.strip().rpartition(":")
-        if not sep or not elem.strip() or not term.strip() or any(
-            c in _NAME_FORBIDDEN for c in elem.strip() + term.strip()
-        ):
-            self.fail(path, f"must be {what}; got {text!r}")
-        return text, elem.strip().lower(), term.strip().lower()
-
-    def display(self, metres: float) -> str:
-        """A length in metres, written in the file's units for messages."""
-        return f"{metres / self.scale:.6g} {self.units}"
-
-
-def _describe(value: Any) -> str:
-    if isinstance(value, bool):
-        return f"the boolean {str(value).lower()}"
-    if isinstance(value, str):
-        return f"the string {value!r}"
-    if isinstance(value, (int, float)):
-        return f"the number {_num(value)}"
-    if isinstance(value, list):
-        return f"an array of {len(value)} item{'s' if len(value) != 1 else ''}"
-    if isinstance(value, dict):
-        return "a table"
-    return f"a value of type {type(value).__name__}"
-
-
-def _num(value: Any) -> str:
-    return f"{value:g}" if isinstance(value, float) else str(value)
-
-
-# ---------------------------------------------------------------------------
-# entry parsers: one per [[kind]], registered in ENTRY_PARSERS
-
-
-def _check_piece_lengths(ctx: Any, path: tuple[Any, ...], points: Sequence[Sequence[float]],
-                         pts_raw: Sequence[Any]) -> None:
-    """Consecutive points of a polyline at least ``snap`` apart (no zero-length piece)."""
-    for k in range(1, len(points)):
-        d = math.dist(points[k - 1], points[k])
-        if d < ctx.snap:
-            ctx.fail(path + ("points", k),
-                     f"zero-length segment: point {pts_raw[k]!r} is {ctx.display(d)} from the "
-                     f"previous point {pts_raw[k - 1]!r}; consecutive points must be at least "
-                     f"snap = {ctx.display(ctx.snap)} apart")
-
-
-def parse_trace_entry(ctx: Context, raw: Any, index: int) -> Trace:
-    path: KeyPath = ("trace", index)
-    t = ctx.table(raw, path, _TRACE_KEYS, ("net", "layer", "width", "points"))
-    net = ctx.net(t["net"], path + ("net",))
-    layer = ctx.layer(t["layer"], path + ("layer",))
-    plane = ctx.layers[layer].plane
-    if plane is not None:
-        ctx.fail(path + ("layer",),
-                 f"layer {layer!r} is a return plane (of net {plane!r}) and carries no traces; "
-                 f"put the trace on a layer without 'plane'")
-    width = ctx.length(t["width"], path + ("width",), positive=True)
-    pts_raw = ctx.array(t["points"], path + ("points",), f"points [x, y] in {ctx.units}")
-    if len(pts_raw) < 2:
-        ctx.fail(path + ("points",),
-                 f"must hold at least two points [x, y]; got {len(pts_raw)}")
-    points = tuple(ctx.point(p, path + ("points", k)) for k, p in enumerate(pts_raw))
-    _check_piece_lengths(ctx, path, points, pts_raw)
-    name = None
-    if "name" in t:
-        name = ctx.string(t["name"], path + ("name",), "a name (text)")
-    return Trace(net=net, layer=layer, width=width, points=points, name=name,
-                 index=index, line=ctx.lines.line_of(path))
-
-
-def parse_via_entry(ctx: Context, raw: Any, index: int) -> Via:
-    path: KeyPath = ("via", index)
-    t = ctx.table(raw, path, _VIA_KEYS, ("net", "at", "from", "to", "diameter"))
-    net = ctx.net(t["net"], path + ("net",))
-    at = ctx.point(t["at"], path + ("at",))
-    lo = ctx.layer(t["from"], path + ("from",))
-    hi = ctx.layer(t["to"], path + ("to",))
-    if lo == hi:
-        ctx.fail(path + ("to",), f"a via must join two different layers; 'from' and 'to' are "
-                                 f"both {lo!r}")
-    diameter = ctx.length(t["diameter"], path + ("diameter",), positive=True)
-    wall = None
-    if "wall" in t:
-        wall = ctx.length(t["wall"], path + ("wall",), positive=True)
-        if wall >= 0.5 * diameter:
-            ctx.fail(path + ("wall",),
-                     f"the plating wall {ctx.display(wall)} must be thinner than the barrel's "
-                     f"radius {ctx.display(0.5 * diameter)}; leave 'wall' out for a solid barrel")
-    return Via(net=net, at=at, from_layer=lo, to_layer=hi, diameter=diameter, wall=wall,
-               index=index, line=ctx.lines.line_of(path))
-
-
-def parse_pin_entry(ctx: Context, raw: Any, index: int) -> Pin:
-    path: KeyPath = ("pin", index)
-    t = ctx.table(raw, path, _PIN_KEYS, _PIN_KEYS)
-    text, elem, term = ctx.terminal(t["terminal"], path + ("terminal",))
-    at = ctx.point(t["at"], path + ("at",))
-    layer = ctx.layer(t["layer"], path + ("layer",))
-    return Pin(terminal=text, element=elem, term=term, at=at, layer=layer, index=index,
-               line=ctx.lines.line_of(path))
-
-
-def _spice_value(ctx: Context, value: Any, path: KeyPath, unit: str) -> float:
-    what = f"a positive number in {unit} or a SPICE-style value such as '2n'"
-    if isinstance(value, str):
-        x = parse_spice_number(value)
-        if x is None:
-            ctx.fail(path, f"must be {what}; got {value!r}")
-    else:
-        x = ctx.number(value, path, what)
-    if x <= 0:
-        ctx.fail(path, f"must be {what}; got {value!r}")
-    return x
-
-
-def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:
-    path: KeyPath = ("loop", index)
-    t = ctx.table(raw, path, _LOOP_KEYS, ("name", "path"))
-    name = ctx.string(t["name"], path + ("name",), "a loop name (text)")
-    stops = ctx.array(t["path"], path + ("path",), "terminals such as 'M1:d'")
-    if len(stops) < 2:
-        ctx.fail(path + ("path",), f"must name at least two terminals; got {len(stops)}")
-    terms = tuple(ctx.terminal(s, path + ("path", k))[0] for k, s in enumerate(stops))
-    limit = _spice_value(ctx, t["limit"], path + ("limit",), "H") if "limit" in t else None
-    freq = (_spice_value(ctx, t["frequency"], path + ("frequency",), "Hz")
-            if "frequency" in t else None)
-    return LoopSpec(name=name, path=terms, limit=limit, frequency=freq, index=index,
-                    line=ctx.lines.line_of(path))
-
-
-_PROBE_KEYS = ("name", "tip", "ground", "tip_lead", "ground_lead", "instrument")
-_CONTACT_KEYS = ("layer", "at", "net")
-_LEAD_KEYS = ("points", "radius")
-_INSTRUMENT_KEYS = ("resistance", "capacitance", "damping")
-_INSTRUMENT_REQUIRED = ("resistance", "capacitance")
-_INSTRUMENT_TABLE = "{ resistance = OHMS, capacitance = FARADS [, damping = OHMS] }"
-_PROBE_NAME = re.compile(r"[A-Za-z0-9_-]+")
-
-
-def _point3(ctx: Context, value: Any, path: KeyPath) -> Point3:
-    what = f"a point in space [x, y, z] in {ctx.units}"
-    if not isinstance(value, list) or len(value) != 3:
-        ctx.fail(path, f"must be {what}; got {_describe(value)}")
-    x, y, z = (ctx.number(c, path + (k,), f"a coordinate in {ctx.units}") * ctx.scale
-               for k, c in enumerate(value))
-    return (x, y, z)
-
-
-def _probe_contact(ctx: Context, raw: Any, path: KeyPath) -> ProbeContact:
-    t = ctx.table(raw, path, _CONTACT_KEYS, ("layer", "at"))
-    layer = ctx.layer(t["layer"], path + ("layer",))
-    at = ctx.point(t["at"], path + ("at",))
-    net = ctx.net(t["net"], path + ("net",)) if "net" in t else None
-    return ProbeContact(layer=layer, at=at, net=net)
-
-
-def _probe_lead(ctx: Context, raw: Any, path: KeyPath, contact: ProbeContact,
-                contact_key: str) -> ProbeLead:
-    t = ctx.table(raw, path, _LEAD_KEYS, _LEAD_KEYS)
-    radius = ctx.length(t["radius"], path + ("radius",), positive=True)
-    pts_raw = ctx.array(t["points"], path + ("points",), f"points [x, y, z] in {ctx.units}")
-    if len(pts_raw) < 2:
-        ctx.fail(path + ("points",), f"must hold at least two points [x, y, z] (from the "
-                                     f"contact to the instrument); got {len(pts_raw)}")
-    points = tuple(_point3(ctx, p, path + ("points", k)) for k, p in enumerate(pts_raw))
-    layer = ctx.layers[contact.layer]
-    start = (contact.at[0], contact.at[1], layer.top)
-    if math.dist(points[0], start) > ctx.snap:
-        shown = ", ".join(f"{c / ctx.scale:.6g}" for c in start)
-        ctx.fail(path + ("points", 0),
-                 f"a lead starts at its contact: the first point must be [{shown}] "
-                 f"({contact_key}.at on the top face of layer {contact.layer!r}); got "
-                 f"{pts_raw[0]!r}")
-    _check_piece_lengths(ctx, path, points, pts_raw)
-    return ProbeLead(points=points, radius=radius)
-
-
-def _instrument(ctx: Context, raw: Any, path: KeyPath) -> Instrument:
-    presets = ", ".join(repr(k) for k in INSTRUMENT_PRESETS)
-    if isinstance(raw, str):
-        key = raw.strip().lower()
-        if key not in INSTRUMENT_PRESETS:
-            ctx.fail(path, f"unknown instrument {raw!r}; accepted: {presets}, or a table "
-                           f"{_INSTRUMENT_TABLE}")
-        return INSTRUMENT_PRESETS[key]
-    if not isinstance(raw, dict):
-        ctx.fail(path, f"must be a preset ({presets}) or a table {_INSTRUMENT_TABLE}; "
-                       f"got {_describe(raw)}")
-    t = ctx.table(raw, path, _INSTRUMENT_KEYS, _INSTRUMENT_REQUIRED)
-    r = _spice_value(ctx, t["resistance"], path + ("resistance",), "ohm")
-    c = _spice_value(ctx, t["capacitance"], path + ("capacitance",), "F")
-    d = (_spice_value(ctx, t["damping"], path + ("damping",), "ohm")
-         if "damping" in t else 0.0)
-    return Instrument(resistance=r, capacitance=c, preset=None, damping=d)
-
-
-def parse_probe_entry(ctx: Context, raw: Any, index: int) -> Probe:
-    """A ``[[probe]]`` entry: ``name``; ``tip`` and ``ground`` contacts
-    ``{ layer, at [, net] }`` (on the layer's top face); ``tip_lead`` and
-    ``ground_lead`` ``{ points = [[x, y, z], ...], radius }``, each starting at
-    its contact and ending at the instrument; ``instrument``, a preset name
-    (:data:`geometry.model.INSTRUMENT_PRESETS`) or ``{ resistance, capacitance
-    [, damping] }`` (numbers in ohm and F, or SPICE-style values such as
-    ``"12p"``; ``damping``, a series resistance in front of the input)."""
-    path: KeyPath = ("probe", index)
-    t = ctx.table(raw, path, _PROBE_KEYS, _PROBE_KEYS)
-    name = ctx.string(t["name"], path + ("name",), "a probe name (letters, digits, '_', '-')")
-    if not _PROBE_NAME.fullmatch(name):
-        ctx.fail(path + ("name",), f"a probe name is letters, digits, '_' and '-' only (it "
-                                   f"names nodes of the netlist); got {name!r}")
-    tip = _probe_contact(ctx, t["tip"], path + ("tip",))
-    ground = _probe_contact(ctx, t["ground"], path + ("ground",))
-    tip_lead = _probe_lead(ctx, t["tip_lead"], path + ("tip_lead",), tip, "tip")
-    ground_lead = _probe_lead(ctx, t["ground_lead"], path + ("ground_lead",), ground, "ground")
-    instrument = _instrument(ctx, t["instrument"], path + ("instrument",))
-    return Probe(name=name, tip=tip, ground=ground, tip_lead=tip_lead, ground_lead=ground_lead,
-                 instrument=instrument, index=index, line=ctx.lines.line_of(path))
 
 
 EntryParser = Callable[[Context, Any, int], Any]

@@ -51,27 +51,17 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Protocol
+from typing import Any
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components, minimum_spanning_tree
-from scipy.sparse.linalg import splu
 
-from geometry.errors import RoutesError
-from geometry.model import CopperGraph, LoopSpec, canonical_net
-from parasite.errors import ParasiteError
+from geometry.model import CopperGraph
+from parasite.network.ports import TerminalLookup, loop_port
+from parasite.network.solve import solve_port, top_pair_terms
+from parasite.units import engineering
 
 DEFAULT_TOP_PAIRS = 10
 """How many segment pairs ``loop_results`` keeps per loop (largest terms first)."""
-
-
-class TerminalLookup(Protocol):
-    """What the loop solver needs from the netlist (``parasite.netlist.Netlist``)."""
-
-    def terminal_index(self, element: str, terminal: str) -> int: ...
-
-    def terminal_node(self, element: str, terminal: str) -> str: ...
 
 
 @dataclass(frozen=True)
@@ -100,289 +90,6 @@ class LoopResult:
     @property
     def over_limit(self) -> bool:
         return self.within_limit is False
-
-
-# ---------------------------------------------------------------------------
-# The network solver (pure arrays)
-
-
-def _incidence(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> sp.csc_matrix:
-    """Node-branch incidence: +1 at each branch's ``from`` node, -1 at its ``to``
-    node (a branch from a node to itself gives an empty column)."""
-    n = len(node_from)
-    cols = np.concatenate([np.arange(n), np.arange(n)])
-    rows = np.concatenate([node_from, node_to])
-    vals = np.concatenate([np.ones(n), -np.ones(n)])
-    return sp.csc_matrix((vals, (rows, cols)), shape=(n_nodes, n))
-
-
-def _spanning_forest(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> np.ndarray:
-    """Boolean mask of the branches of a spanning forest (the first of parallel
-    branches and the earliest branches preferred; branches from a node to
-    itself are never in it)."""
-    n = len(node_from)
-    u = np.minimum(node_from, node_to).astype(np.int64)
-    v = np.maximum(node_from, node_to).astype(np.int64)
-    candidates = np.flatnonzero(u != v)
-    _, first = np.unique(u[candidates] * n_nodes + v[candidates], return_index=True)
-    candidates = candidates[np.sort(first)]
-    weights = sp.coo_matrix(
-        (candidates + 1.0, (u[candidates], v[candidates])), shape=(n_nodes, n_nodes)
-    ).tocsr()
-    tree = minimum_spanning_tree(weights)
-    mask = np.zeros(n, dtype=bool)
-    mask[np.rint(tree.data).astype(np.int64) - 1] = True
-    return mask
-
-
-def node_components(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> np.ndarray:
-    """Connected-component label of every node (isolated nodes included)."""
-    adj = sp.coo_matrix(
-        (np.ones(len(node_from)), (node_from, node_to)), shape=(n_nodes, n_nodes)
-    )
-    return connected_components(adj, directed=False)[1]
-
-
-def branch_currents(
-    node_from: np.ndarray,
-    node_to: np.ndarray,
-    n_nodes: int,
-    injection: np.ndarray,
-    L: np.ndarray,
-    R: np.ndarray,
-    omega: float,
-) -> np.ndarray:
-    """Branch currents (A) of an R-L network driven by node injections.
-
-    ``injection[n]`` is the current (A) that enters node ``n`` from outside; it
-    must add up to zero on every connected piece. Branch ``k`` runs
-    ``node_from[k] -> node_to[k]`` with resistance ``R[k]`` (ohm) and partial
-    inductances ``L[k, :]`` (H). At ``omega > 0`` (rad/s) the currents are
-    complex phasors; at ``omega == 0`` they are the real low-frequency-limit
-    division (resistive). Kirchhoff's laws on a spanning tree and its
-    fundamental cycles; sparse LU (scipy.sparse.linalg.splu) for the tree.
-    """
-    node_from = np.asarray(node_from, dtype=np.int64)
-    node_to = np.asarray(node_to, dtype=np.int64)
-    n = len(node_from)
-    if n == 0:
-        return np.zeros(0)
-    labels = node_components(node_from, node_to, n_nodes)
-    _, roots = np.unique(labels, return_index=True)
-    keep = np.ones(n_nodes, dtype=bool)
-    keep[roots] = False
-
-    tree = _spanning_forest(node_from, node_to, n_nodes)
-    chords = np.flatnonzero(~tree)
-    A = _incidence(node_from, node_to, n_nodes)[np.flatnonzero(keep)]
-    A_tree = A[:, np.flatnonzero(tree)].tocsc()
-    x = np.asarray(injection, dtype=float)[keep]
-
-    i_p = np.zeros(n)
-    if A_tree.shape[0]:
-        lu = splu(A_tree)
-        i_p[tree] = lu.solve(x)
-    if len(chords) == 0:
-        return i_p
-    # Fundamental cycles: chord k plus the tree branches that close it. The
-    # entries are 0, +1 or -1 (a tree path); rounding makes them exact, and the
-    # sparse form keeps the products below at nnz(B) * n instead of n^2 * c.
-    c = len(chords)
-    rows = [chords]
-    cols = [np.arange(c)]
-    vals = [np.ones(c)]
-    if A_tree.shape[0]:
-        path = -np.rint(lu.solve(A[:, chords].toarray()))
-        r, k = np.nonzero(path)
-        rows.append(np.flatnonzero(tree)[r])
-        cols.append(k)
-        vals.append(path[r, k])
-    B = sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                      shape=(n, c))
-    BtR = (B.T @ sp.diags(R)).tocsr()
-    mesh_r = (BtR @ B).toarray()
-    rhs_r = BtR @ i_p
-    if omega == 0.0:
-        return np.asarray(i_p + B @ np.linalg.solve(mesh_r, -rhs_r))
-    BtL = np.asarray(B.T @ L)  # (c, n) dense
-    mesh = mesh_r + 1j * omega * np.asarray((B.T @ BtL.T).T)
-    rhs = rhs_r + 1j * omega * (BtL @ i_p)
-    return np.asarray(i_p + B @ np.linalg.solve(mesh, -rhs))
-
-
-@dataclass(frozen=True)
-class PortSolution:
-    """Port impedance of a network at one frequency, and its terms."""
-
-    currents: np.ndarray  # (n,) branch currents per 1 A port current (complex, or real at DC)
-    inductance: float  # H
-    resistance: float  # ohm
-    segment_terms: np.ndarray  # (n,) H, add up to ``inductance``
-    self_terms: np.ndarray  # (n,) H, L_ii |i_i|^2
-
-
-def solve_port(
-    node_from: np.ndarray,
-    node_to: np.ndarray,
-    n_nodes: int,
-    injection: np.ndarray,
-    L: np.ndarray,
-    R: np.ndarray,
-    frequency: float,
-) -> PortSolution:
-    """Loop inductance (H) and resistance (ohm) seen by a port that drives
-    ``injection`` (per 1 A) into the network, at ``frequency`` Hz (0: the
-    low-frequency limit). See the module docstring for the equations."""
-    L = np.asarray(L, dtype=float)
-    R = np.asarray(R, dtype=float)
-    omega = 2.0 * math.pi * frequency
-    i = branch_currents(node_from, node_to, n_nodes, injection, L, R, omega)
-    if len(i) == 0:
-        z = np.zeros(0)
-        return PortSolution(z, 0.0, 0.0, z, z)
-    terms = np.real(np.conj(i) * (L @ i))
-    magnitude2 = np.abs(i) ** 2
-    return PortSolution(
-        currents=i,
-        inductance=float(terms.sum()),
-        resistance=float(R @ magnitude2),
-        segment_terms=terms,
-        self_terms=np.diag(L) * magnitude2,
-    )
-
-
-def top_pair_terms(
-    currents: np.ndarray, L: np.ndarray, count: int, *, tolerance: float = 1e-12
-) -> list[tuple[int, int, float]]:
-    """The ``count`` largest mutual terms ``2 L_ij Re(conj(i_i) i_j)`` (H), ``i < j``,
-    largest first, as ``(i, j, term)`` (indices into ``currents``)."""
-    if count <= 0 or len(currents) < 2:
-        return []
-    active = np.flatnonzero(np.abs(currents) > tolerance)
-    if len(active) < 2:
-        return []
-    ia = currents[active]
-    P = 2.0 * L[np.ix_(active, active)] * np.real(np.conj(ia)[:, None] * ia[None, :])
-    a, b = np.triu_indices(len(active), k=1)
-    values = P[a, b]
-    k = min(count, len(values))
-    pick = np.argpartition(-values, k - 1)[:k]
-    # Largest first; ties in index order so that the output is deterministic.
-    pick = pick[np.lexsort((b[pick], a[pick], -values[pick]))]
-    return [(int(active[a[p]]), int(active[b[p]]), float(values[p])) for p in pick]
-
-
-# ---------------------------------------------------------------------------
-# From the routes file's loops to the network
-
-
-@dataclass(frozen=True)
-class _Stop:
-    text: str  # terminal as written
-    element: str
-    net: str
-    node: int  # graph node id, or a node past the graph's for a net without copper
-
-
-def _routes_error(spec: LoopSpec, file: str, key: str, message: str) -> RoutesError:
-    return RoutesError(message, file=file, line=spec.line, key=key)
-
-
-def _resolve_stops(
-    spec: LoopSpec, graph: CopperGraph, netlist: TerminalLookup, extra: dict[str, int]
-) -> list[_Stop]:
-    file = graph.routes.path
-    placed: dict[tuple[str, int], int] = {}
-    for pn in graph.pins:
-        try:
-            placed[(pn.pin.element, netlist.terminal_index(pn.pin.element, pn.pin.term))] = pn.node
-        except ParasiteError:  # the pin check reports these; a loop cannot use them
-            continue
-    if len(spec.path) < 2:
-        raise _routes_error(
-            spec, file, f"loop[{spec.index}].path",
-            f"loop {spec.name!r} names {len(spec.path)} terminal(s); a loop needs at least two, "
-            "for example [\"C5:1\", \"M1:d\", \"M1:s\", \"C5:2\"]",
-        )
-    stops: list[_Stop] = []
-    for j, text in enumerate(spec.path):
-        key = f"loop[{spec.index}].path[{j}]"
-        element, colon, term = text.partition(":")
-        element, term = element.strip().lower(), term.strip().lower()
-        if not colon or not element or not term:
-            raise _routes_error(
-                spec, file, key,
-                f"{text!r} is not a terminal; write ELEMENT:TERMINAL, for example \"M1:d\" or \"C5:1\"",
-            )
-        try:
-            index = netlist.terminal_index(element, term)
-            net = netlist.terminal_node(element, term)
-        except ParasiteError as exc:
-            raise _routes_error(spec, file, key, f"terminal {text!r}: {exc.message}") from exc
-        net = canonical_net(net)
-        if (element, index) in placed:
-            node = placed[(element, index)]
-        elif net in graph.anchors:
-            node = graph.anchors[net]
-        else:  # a net without copper: one ideal node
-            node = extra.setdefault(net, len(graph.nodes) + len(extra))
-        stops.append(_Stop(text, element, net, node))
-    return stops
-
-
-def _loop_network(
-    spec: LoopSpec, graph: CopperGraph, netlist: TerminalLookup
-) -> tuple[np.ndarray, np.ndarray, int]:
-    """The segments (indices) of the nets the loop visits, the injection vector
-    (per 1 A) and the number of nodes (graph nodes plus one per copper-less net)."""
-    extra: dict[str, int] = {}
-    stops = _resolve_stops(spec, graph, netlist, extra)
-    n_nodes = len(graph.nodes) + len(extra)
-    injection = np.zeros(n_nodes)
-    nets: set[str] = set()
-    hops: list[tuple[int, _Stop, _Stop]] = []
-    through_element = False
-    for j, a in enumerate(stops):
-        b = stops[(j + 1) % len(stops)]
-        if a.element == b.element:  # through the element: it carries the loop current
-            through_element = True
-            injection[a.node] -= 1.0
-            injection[b.node] += 1.0
-        elif a.net == b.net:
-            nets.add(a.net)
-            hops.append((j, a, b))
-        else:
-            raise _routes_error(
-                spec, graph.routes.path, f"loop[{spec.index}].path[{(j + 1) % len(stops)}]",
-                f"loop {spec.name!r} goes from {a.text!r} (net {a.net!r}) to {b.text!r} "
-                f"(net {b.net!r}): consecutive terminals must be on the same net (the path runs "
-                "through its copper) or of the same element (the path runs through it)",
-            )
-    # The check is on the hops, not on the injection: element hops between the same
-    # two nodes cancel there (two elements between the same two copper-less nets),
-    # and then no copper carries loop current and the loop's copper inductance is 0.
-    if not through_element:
-        raise _routes_error(
-            spec, graph.routes.path, f"loop[{spec.index}].path",
-            f"loop {spec.name!r} never passes through an element, so no current flows in it; "
-            "name two terminals of one element in a row (or first and last) where the loop "
-            "runs through it",
-        )
-    net_of = graph.arrays.net_index
-    wanted = [k for k, name in enumerate(graph.nets) if name in nets]
-    segments = np.flatnonzero(np.isin(net_of, wanted)) if len(net_of) else np.zeros(0, int)
-    nf = graph.arrays.node_from[segments].astype(np.int64)
-    nt = graph.arrays.node_to[segments].astype(np.int64)
-    labels = node_components(nf, nt, n_nodes)
-    for j, a, b in hops:
-        if labels[a.node] != labels[b.node]:
-            raise _routes_error(
-                spec, graph.routes.path, f"loop[{spec.index}].path[{(j + 1) % len(stops)}]",
-                f"loop {spec.name!r}: no copper of net {a.net!r} joins {a.text!r} to {b.text!r} "
-                "(the net's copper is in separate pieces, or a terminal sits on the net's anchor "
-                "away from this piece); connect the copper or place the terminal with a [[pin]]",
-            )
-    return segments, injection, n_nodes
 
 
 def loop_results(
@@ -418,7 +125,7 @@ def loop_results(
     for spec in graph.routes.loops:
         f = spec.frequency if spec.frequency is not None else frequency
         f = 0.0 if f is None else float(f)
-        segments, injection, n_nodes = _loop_network(spec, graph, netlist)
+        segments, injection, n_nodes = loop_port(spec, graph, netlist)
         R_all = resistance_at(f) if (resistance_at is not None and f > 0) else R
         L_sub = L[np.ix_(segments, segments)]
         sol = solve_port(
@@ -471,21 +178,6 @@ def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str
             for a, b, term in r.pair_contributors[:top]
         ],
     }
-
-
-_PREFIXES = ((1e-15, "f"), (1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""),
-             (1e3, "k"), (1e6, "M"), (1e9, "G"))
-
-
-def engineering(value: float, unit: str, digits: int = 3) -> str:
-    """``value`` with an SI prefix and ``digits`` significant digits, e.g. ``1.83 nH``."""
-    if value == 0 or not math.isfinite(value):
-        return f"{value:g} {unit}"
-    scale, prefix = _PREFIXES[0]
-    for s, p in _PREFIXES:
-        if abs(value) >= s * 0.9995:
-            scale, prefix = s, p
-    return f"{value / scale:.{digits}g} {prefix}{unit}"
 
 
 def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:

@@ -36,3 +36,7 @@ class NameAllocator:
             n += 1
         self._taken.add(candidate.lower())
         return candidate
+
+    def taken(self) -> frozenset[str]:
+        """Every name handed out or reserved so far (lower-case)."""
+        return frozenset(self._taken)

@@ -11,7 +11,7 @@ import sys
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
@@ -47,18 +47,44 @@ def read_netlist_arg(netlist_path: str) -> Netlist:
     return read_netlist(netlist_path)
 
 
-def load_inputs(netlist_path: str, routes_path: str) -> Inputs:
-    """Read both files, cross-check the pins against the netlist and build the
-    copper graph."""
+def inputs_of(netlist: Netlist, routes: Routes, netlist_path: str, routes_path: str) -> Inputs:
+    """Cross-check the pins of ``routes`` against ``netlist`` and build the copper graph."""
     from geometry.graph import build_graph
-    from geometry.routes import load_routes
     from parasite.pins import resolve_pins
 
-    netlist = read_netlist_arg(netlist_path)
-    routes = load_routes(routes_path)
     pins = resolve_pins(routes, netlist)
     graph = build_graph(routes, pins.nets, anchor_pins=pins.anchor_pins)
     return Inputs(netlist, routes, graph, netlist_path, routes_path)
+
+
+def load_inputs(netlist_path: str, routes_path: str) -> Inputs:
+    """Read both files, cross-check the pins against the netlist and build the
+    copper graph."""
+    from geometry.routes import load_routes
+
+    netlist = read_netlist_arg(netlist_path)
+    routes = load_routes(routes_path)
+    return inputs_of(netlist, routes, netlist_path, routes_path)
+
+
+def _bytes(text: str | bytes) -> bytes:
+    return text if isinstance(text, bytes) else text.encode("utf-8", errors="surrogateescape")
+
+
+def inputs_from_text(netlist: str | bytes, routes: str | bytes, *,
+                     routes_format: Literal["toml", "json"] = "toml",
+                     netlist_name: str = "<netlist>", routes_name: str = "<routes>",
+                     include_dir: str | Path | None = None) -> Inputs:
+    """:func:`load_inputs` for text in memory: the names stand for the files in
+    messages and in the report; includes are looked for in ``include_dir``
+    (default: the working folder)."""
+    from geometry.routes import parse_routes
+    from parasite.netlist import parse_netlist
+
+    base = Path.cwd() if include_dir is None else Path(include_dir)
+    parsed = parse_netlist(_bytes(netlist), netlist_name, base)
+    return inputs_of(parsed, parse_routes(_bytes(routes), routes_name, routes_format),
+                     netlist_name, routes_name)
 
 
 def extract(

@@ -7,13 +7,12 @@ to the instrument's input. The copper graph makes each lead a chain of
 that starts at its contact node; the extraction couples them to all copper
 like any other segment. Here:
 
-* the netlist side: the lead end nodes get stable names
-  (``probe_<name>_tip``, ``probe_<name>_gnd``), the instrument input (R in
-  parallel with C) goes between them, and a ``.save`` card makes the simulator
-  write both; every coupling of a lead is written, whatever its |k|
-  (:func:`select_couplings`), since a lead's pick-up is the sum of many weak
-  couplings;
-* the report side: each probe's reading node pair, its leads' loop inductance
+* the netlist side (elsewhere): the lead end nodes get stable names
+  (:mod:`parasite.network.names`), every coupling of a lead is written,
+  whatever its |k| (:func:`parasite.network.couplings.select_couplings`),
+  since a lead's pick-up is the sum of many weak couplings, and the writer
+  puts the instrument input (R in parallel with C) between the lead ends;
+* here, the report side: each probe's reading node pair, its leads' loop inductance
   and the resonance of that inductance with the instrument's capacitance, and
   its pick-up from each ``[[loop]]`` of the routes file (:func:`probe_report`).
 
@@ -51,209 +50,25 @@ estimates from a simplified model, to be confirmed by measurement.
 from __future__ import annotations
 
 import math
-import re
 from collections.abc import Sequence
-from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from parasite.naming import NameAllocator, sanitize
+from parasite.network.names import reading_plus
+from parasite.network.ports import ProbeNodes, loop_port, probe_nodes
+from parasite.network.solve import solve_port
+from parasite.units import engineering
 
 if TYPE_CHECKING:
-    from geometry.model import CopperGraph, Instrument, Probe
-    from parasite.branches import Branch
-    from parasite.extract.couplings import CouplingSelection
+    from geometry.model import CopperGraph
+
 
 CAUTION = (
     "Probing a live power stage is hazardous (high voltage, stored energy, large currents): "
     "follow local codes and licensed practice. Probe readings and pick-up are estimates, to be "
     "confirmed by measurement."
 )
-
-
-@dataclass(frozen=True)
-class ProbeNodes:
-    """A probe's place in the copper graph (node ids and segment indices)."""
-
-    probe: Probe
-    tip_contact: int
-    ground_contact: int
-    tip_end: int
-    ground_end: int
-    tip_segments: tuple[int, ...]  # contact -> end
-    ground_segments: tuple[int, ...]  # contact -> end
-
-
-def probe_nodes(graph: CopperGraph) -> list[ProbeNodes]:
-    """Every probe of the graph, in the routes file's order."""
-    out: list[ProbeNodes] = []
-    for pr in graph.routes.probes:
-        tip = tuple(s.index for s in graph.segments if s.source == f"probe[{pr.index}].tip_lead")
-        gnd = tuple(s.index for s in graph.segments
-                    if s.source == f"probe[{pr.index}].ground_lead")
-        segs = graph.segments
-        out.append(ProbeNodes(
-            probe=pr, tip_contact=segs[tip[0]].node_from, ground_contact=segs[gnd[0]].node_from,
-            tip_end=segs[tip[-1]].node_to, ground_end=segs[gnd[-1]].node_to,
-            tip_segments=tip, ground_segments=gnd))
-    return out
-
-
-def kept_nodes(graph: CopperGraph) -> set[int]:
-    """Nodes that must stay in the netlist: the contacts (a lead is never merged
-    with the copper it touches) and the lead ends (the instrument's terminals)."""
-    out: set[int] = set()
-    for pn in probe_nodes(graph):
-        out |= {pn.tip_contact, pn.ground_contact, pn.tip_end, pn.ground_end}
-    return out
-
-
-def end_node_names(graph: CopperGraph, allocator: NameAllocator) -> dict[int, str]:
-    """Netlist names of the lead ends: ``probe_<name>_tip`` (the reading's plus
-    side) and ``probe_<name>_gnd`` (its minus side), made unique by ``allocator``.
-
-    For an instrument with a ``damping`` resistance the name of the node inside
-    the input (between that resistance and the R || C), ``<tip name>_in``
-    (:func:`inner_node_name`), is reserved too: the tip's name is chosen so that
-    both are free."""
-    names: dict[int, str] = {}
-    for pn in probe_nodes(graph):
-        base = sanitize(pn.probe.name)
-        tip = allocator.new(f"probe_{base}_tip")
-        if pn.probe.instrument.damping > 0:
-            # allocator.new returns its argument only when that name is free (and reserves it)
-            while allocator.new(inner_node_name(tip)) != inner_node_name(tip):
-                tip = allocator.new(f"probe_{base}_tip")
-        names[pn.tip_end] = tip
-        names[pn.ground_end] = allocator.new(f"probe_{base}_gnd")
-    return names
-
-
-def inner_node_name(tip_name: str) -> str:
-    """The node between an instrument's damping resistance and its R || C."""
-    return f"{tip_name}_in"
-
-
-def reading_plus(tip_name: str, instrument: Instrument) -> str:
-    """The plus node of the reading: the tip lead's end, or for an instrument
-    with a damping resistance the node behind it (the reading is the voltage
-    across the R || C, as the instrument sees it, not across the damping
-    resistance too: that would add ``damping * C dV/dt`` on every edge)."""
-    return inner_node_name(tip_name) if instrument.damping > 0 else tip_name
-
-
-def lead_branches(graph: CopperGraph, branches: Sequence[Branch]) -> np.ndarray:
-    """Boolean mask of the branches made of probe-lead segments."""
-    return np.array([graph.segments[b.segments[0]].kind == "probe" for b in branches],
-                    dtype=bool)
-
-
-def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
-                     margin: float = 1e-3) -> CouplingSelection:
-    """Couplings to write: those of the circuit's branches chosen by
-    :func:`parasite.extract.choose_couplings` (threshold, diagonal
-    compensation where needed), plus every non-zero coupling of a probe-lead
-    branch (``leads`` True) with any other branch, written exactly.
-
-    The written matrix stays positive definite: when the threshold alone
-    leaves the circuit block with ``Lw >= L`` not guaranteed and the combined
-    matrix's smallest eigenvalue falls below ``margin`` times the full
-    matrix's, the circuit block is compensated on its diagonal (then
-    ``Lw_cc >= L_cc``, so the Schur complement of the leads is at least that
-    of the exact matrix, which is positive)."""
-    from parasite.errors import ExtractionError
-    from parasite.extract.couplings import (
-        CouplingSelection,
-        _round_k,
-        choose_couplings,
-        smallest_eigenvalue,
-        written_matrix,
-    )
-
-    leads = np.asarray(leads, dtype=bool)
-    if not leads.any():
-        return choose_couplings(Lb, min_coupling, margin=margin)
-    Lb = 0.5 * (Lb + Lb.T)
-    circ = np.flatnonzero(~leads)
-    lam_full = smallest_eigenvalue(Lb)
-    if lam_full <= 0:
-        raise ExtractionError(
-            f"the extracted inductance matrix with the probe leads is not positive definite "
-            f"(smallest eigenvalue {lam_full:.3e} H): does a lead run through copper?")
-
-    def combine(sub: CouplingSelection) -> CouplingSelection:
-        n = Lb.shape[0]
-        self_l = np.array([float(f"{v:.10e}") for v in np.diag(Lb).tolist()])
-        self_l[circ] = sub.self_inductance
-        iu, ju = np.triu_indices(n, 1)
-        lead_pair = (leads[iu] | leads[ju]) & (Lb[iu, ju] != 0.0)
-        i = np.concatenate([circ[sub.i], iu[lead_pair]])
-        j = np.concatenate([circ[sub.j], ju[lead_pair]])
-        d = np.sqrt(self_l)
-        k_lead = _round_k(Lb[iu[lead_pair], ju[lead_pair]] / (d[iu[lead_pair]] * d[ju[lead_pair]]))
-        k = np.concatenate([sub.k, k_lead])
-        order = np.lexsort((j, i))
-        i, j, k = i[order], j[order], k[order]
-        lam = smallest_eigenvalue(written_matrix(self_l, i, j, k))
-        n_lead = int(np.count_nonzero(lead_pair))
-        return CouplingSelection(
-            i=i, j=j, k=k, self_inductance=self_l, method=sub.method,
-            note=(sub.note + ("; " if sub.note else "")
-                  + f"{n_lead} couplings of probe leads written whatever their |k|"),
-            min_eigenvalue=lam, dropped=sub.dropped, kept=sub.kept + n_lead)
-
-    Lcc = Lb[np.ix_(circ, circ)]
-    out = combine(choose_couplings(Lcc, min_coupling, margin=margin))
-    if out.min_eigenvalue < margin * lam_full:
-        out = combine(choose_couplings(Lcc, min_coupling, margin=math.inf))
-    if out.min_eigenvalue <= 0:
-        raise ExtractionError(
-            f"could not write a positive definite inductance matrix with the probe leads "
-            f"(smallest eigenvalue {out.min_eigenvalue:.3e} H)")
-    return out
-
-
-_SAVE = re.compile(rb"^[ \t]*\.save\b", re.IGNORECASE | re.MULTILINE)
-
-
-def has_save_card(netlist_bytes: bytes) -> bool:
-    """True when the main file has a ``.save`` card (which limits what ngspice
-    writes; further ``.save`` cards add to the list)."""
-    return _SAVE.search(netlist_bytes) is not None
-
-
-def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAllocator,
-                     netlist_bytes: bytes) -> list[str]:
-    """The instrument inputs (R in parallel with C between the lead ends, behind
-    the series damping resistance where the instrument has one) and a ``.save``
-    card for the reading's nodes.
-
-    ngspice writes every node when a deck has no ``.save`` card and only the
-    listed ones when it has one; ``.save`` cards add up (ngspice 39, checked by
-    a run). So the card lists the probe nodes, with ``all`` in front when the
-    main file has no ``.save`` of its own (a ``.save`` in an included file is
-    not looked for: then ``all`` writes more than that file asked for)."""
-    cards: list[str] = []
-    saved: list[str] = []
-    for pn in probe_nodes(graph):
-        pr, ins = pn.probe, pn.probe.instrument
-        end, minus = names[pn.tip_end], names[pn.ground_end]
-        plus = reading_plus(end, ins)
-        tag = sanitize(pr.name)
-        what = f"preset {ins.preset!r}" if ins.preset else "given values"
-        damped = f", behind {ins.damping:g} ohm in series from {end}" if ins.damping > 0 else ""
-        cards.append(f"* probe {pr.name}: reading = v({plus}) - v({minus}); instrument input "
-                     f"{ins.resistance:g} ohm || {ins.capacitance:g} F{damped} ({what})")
-        if ins.damping > 0:
-            cards.append(f"{elements.new('Rdamp_' + tag)} {end} {plus} {ins.damping:.10e}")
-        cards.append(f"{elements.new('Rprobe_' + tag)} {plus} {minus} {ins.resistance:.10e}")
-        cards.append(f"{elements.new('Cprobe_' + tag)} {plus} {minus} {ins.capacitance:.10e}")
-        saved += [f"v({plus})", f"v({minus})"]
-    if saved:
-        lead = [] if has_save_card(netlist_bytes) else ["all"]
-        cards.append(".save " + " ".join(lead + saved))
-    return cards
 
 
 def probe_reading(result: Any, report: dict[str, Any], name: str,
@@ -281,10 +96,6 @@ def probe_reading(result: Any, report: dict[str, Any], name: str,
     return np.asarray(plot.scale, dtype=float), plus - minus, entry
 
 
-# ---------------------------------------------------------------------------
-# The report
-
-
 def _loop_vector(graph: CopperGraph, pn: ProbeNodes) -> np.ndarray:
     v = np.zeros(len(graph.segments))
     v[list(pn.tip_segments)] = 1.0
@@ -306,8 +117,6 @@ def probe_report(extraction: Any, names: dict[int, str],
     loop's frequency (``omega |M|``; the extraction's frequency for a loop
     without one; null when neither is known) and ``|M| / L_loop``.
     """
-    from parasite.loops import _loop_network, solve_port
-
     inputs = extraction.inputs
     graph = inputs.graph
     L = np.asarray(extraction.L, dtype=float)
@@ -319,7 +128,7 @@ def probe_report(extraction: Any, names: dict[int, str],
     currents: list[tuple[Any, np.ndarray, float | None]] = []
     for spec in graph.routes.loops:
         f = spec.frequency if spec.frequency is not None else extraction.frequency
-        segments, injection, n_nodes = _loop_network(spec, graph, inputs.netlist)
+        segments, injection, n_nodes = loop_port(spec, graph, inputs.netlist)
         sol = solve_port(graph.arrays.node_from[segments].astype(np.int64),
                          graph.arrays.node_to[segments].astype(np.int64), n_nodes, injection,
                          L[np.ix_(segments, segments)], R[segments], 0.0 if f is None else f)
@@ -386,8 +195,6 @@ def lead_damping_ratio(inductance: float, series_resistance: float, capacitance:
 
 def format_probe_table(probes: Sequence[dict[str, Any]]) -> list[str]:
     """The text report's probe section (lines)."""
-    from parasite.loops import engineering
-
     lines: list[str] = []
     for p in probes:
         ins = p["instrument"]

@@ -41,22 +41,25 @@ def segment_couplings(L: np.ndarray, min_coupling: float,
     return out
 
 
-def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any = None,
-                 node_names: dict[int, str] | None = None, threshold: Any = None) -> dict[str, Any]:
-    """The JSON report of one extraction (see docs: command-line contract)."""
-    from parasite.loops import loop_result_dict, loop_results
-    from parasite.probes import probe_report
+def node_labels(network: Any) -> dict[int, str]:
+    """Node names for the report: the netlist's where the copper has them, else
+    ``<net>#<id>`` (a board whose copper is not written)."""
+    graph = network.graph
+    return network.node_names or {n.id: f"{n.net}#{n.id}" for n in graph.nodes}
 
+
+def build_report(network: Any, loops: list[dict[str, Any]],
+                 probe_entries: list[dict[str, Any]]) -> dict[str, Any]:
+    """The JSON report of one run (see docs: command-line contract) from the
+    :class:`parasite.network.Network` and the loop and probe entries
+    (:func:`parasite.loops.loop_result_dict`, :func:`parasite.probes.probe_report`)."""
+    extraction = network.extraction
     inputs = extraction.inputs
     graph = inputs.graph
     L, R = extraction.L, extraction.R
-    if threshold is not None:
-        min_coupling = float(threshold.min_coupling)
-    else:
-        from parasite.threshold import FALLBACK
-
-        min_coupling = FALLBACK if options.min_coupling is None else float(options.min_coupling)
-    names = node_names or {n.id: f"{n.net}#{n.id}" for n in graph.nodes}
+    selection, threshold = network.selection, network.threshold
+    min_coupling = network.min_coupling
+    names = node_labels(network)
     segments = []
     for s in graph.segments:
         segments.append({
@@ -70,10 +73,7 @@ def build_report(extraction: Any, options: Any, selection: Any, *, branches: Any
         {"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
         for i, j, m, k in segment_couplings(L, max(min_coupling, 1e-12))
     ] if len(L) else []
-    loops = ([loop_result_dict(r) for r in loop_results(graph, inputs.netlist, L, R)]
-             if graph.routes.loops else [])
-    probe_entries = probe_report(extraction, names, loops) if graph.routes.probes else []
-    n_br = len(branches or [])
+    n_br = len(network.branches)
     summary: dict[str, Any] = {
         "segments": len(graph.segments),
         "branches": n_br,
@@ -190,3 +190,15 @@ def report_csv(report: dict[str, Any], table: str = "segments") -> str:
     for r in rows:
         writer.writerow({k: ("" if r.get(k) is None else r.get(k)) for k in fields})
     return buf.getvalue()
+
+
+def format_report(report: dict[str, Any], fmt: str = "text", table: str = "segments") -> str:
+    """The report as ``parasite report --format`` writes it: ``json``, ``csv``
+    (one ``table``) or ``text``."""
+    if fmt == "json":
+        return report_json(report)
+    if fmt == "csv":
+        return report_csv(report, table)
+    if fmt == "text":
+        return report_text(report)
+    raise ValueError(f"unknown report format {fmt!r}: json, text or csv")

@@ -11,7 +11,9 @@ import pytest
 
 from parasite.augment import augment_files
 from parasite.spice import run_ngspice
-from tests.test_augment_ngspice import HEAD, _pin, _trace
+from tests.boards import ONE_LAYER as HEAD
+from tests.boards import pin as _pin
+from tests.boards import trace as _trace
 
 pytestmark = pytest.mark.ngspice
 

@@ -19,7 +19,7 @@ from parasite.cli.options import netlist_arg, progress_callback, quiet_opt, rout
 
 def _pair(value: float, limit: float) -> tuple[str, str]:
     """Value and limit with enough digits to tell them apart."""
-    from parasite.loops import engineering
+    from parasite.units import engineering
 
     for digits in (4, 8, 15):
         a, b = engineering(value, "H", digits), engineering(limit, "H", digits)

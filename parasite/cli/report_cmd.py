@@ -33,15 +33,10 @@ def report(netlist: str, routes: str, fmt: str, table: str, output: str,
     (SI units in JSON and CSV)."""
     from parasite.augment import augment_files
     from parasite.outputs import check_output_path, write_output
-    from parasite.report import report_csv, report_json, report_text
+    from parasite.report import format_report
 
     check_output_path(output, [netlist, routes])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                            progress=progress_callback(quiet))
-    if fmt == "json":
-        text = report_json(result.report)
-    elif fmt == "csv":
-        text = report_csv(result.report, table)
-    else:
-        text = report_text(result.report)
+    text = format_report(result.report, fmt, table)
     write_output(output, text.encode(), [netlist, routes])

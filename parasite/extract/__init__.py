@@ -11,13 +11,12 @@ Public API::
     self_inductances(arrays) -> (N,) H, without images
     resistances(arrays, copper, frequency=None) -> (N,) ohm (None: DC)
     skin_depth(resistivity, frequency, mu_r=1.0) -> m
-    choose_couplings(L, min_coupling, *, margin=1e-3) -> CouplingSelection
-    format_k(k) -> str   (a coupling coefficient as written into the netlist)
+
+Which couplings are written is the network's business
+(:mod:`parasite.network.couplings`).
 """
 
-from parasite.extract.couplings import CouplingSelection, choose_couplings, format_k
 from parasite.extract.matrix import inductance_matrix, self_inductances
 from parasite.extract.resistance import resistances, skin_depth
 
-__all__ = ["CouplingSelection", "choose_couplings", "format_k", "inductance_matrix", "resistances",
-           "self_inductances", "skin_depth"]
+__all__ = ["inductance_matrix", "resistances", "self_inductances", "skin_depth"]

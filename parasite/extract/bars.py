@@ -39,7 +39,7 @@ from parasite.extract.filaments import CORNER_SIGNS, MU0_4PI, corner_differences
 
 FAR_RATIO = 8.0
 """Centre distance / largest cross-section dimension above which parallel bars use
-the moment-corrected filament formula (chosen by the sweep in tests/test_extract_bars.py,
+the moment-corrected filament formula (chosen by the sweep in tests/extract/test_extract_bars.py,
 which shows relative error <= 1e-4 on both sides of the switch)."""
 
 SERIES_RATIO = 8.0

@@ -8,7 +8,7 @@ filament-subdivision form of the partial element method (Ruehli, "Equivalent
 circuit models for three-dimensional multiconductor systems", IEEE Trans. MTT
 22(3), 1974). The order n is chosen from the distance between the conductors
 relative to their section size (:data:`ORDER_TABLE`): relative error below 1e-4
-for separated conductors (checked in tests/test_extract_inclined.py against
+for separated conductors (checked in tests/extract/test_extract_inclined.py against
 scipy cubature over both sections). Bars of one layer touching at a bend (the
 filament integrand has kinks there, so the rule converges only algebraically)
 use the height-difference rule of :func:`_same_layer_grids` with 20 points across

@@ -1,0 +1,140 @@
+"""The circuit that the copper makes, built once from the extraction.
+
+:func:`build_network` takes an :class:`parasite.pipeline.Extraction` and
+decides everything the outputs share: the netlist name of every node
+(:mod:`parasite.network.names`), the copper that carries current and its
+exactly merged series chains (:mod:`parasite.network.branches`), the branch
+resistances and inductance matrix, and the couplings to write, with the
+threshold chosen per board (:mod:`parasite.network.threshold`) and a written
+matrix that stays positive definite (:mod:`parasite.network.couplings`).
+
+The writer, the report, the loops and the probes read the :class:`Network`;
+none of them reaches into another. SI units throughout.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import scipy.sparse as sp
+
+from parasite.naming import NameAllocator
+from parasite.network.branches import Branch, branch_matrices, build_branches, conducting_segments
+from parasite.network.couplings import (
+    CouplingSelection,
+    choose_couplings,
+    lead_branches,
+    select_couplings,
+    written_matrix,
+)
+from parasite.network.names import node_names
+from parasite.network.ports import kept_nodes
+from parasite.network.threshold import DEFAULT_TOLERANCE, FALLBACK, ThresholdChoice, choose_threshold
+
+if TYPE_CHECKING:
+    from geometry.model import CopperGraph
+    from parasite.pipeline import Extraction
+
+
+@dataclass(frozen=True)
+class NetworkOptions:
+    min_coupling: float | None = None  # None: chosen per board (parasite.network.threshold)
+    keep_segments: bool = False  # one branch per segment instead of per series chain
+    loop_tolerance: float = DEFAULT_TOLERANCE  # with min_coupling None: largest change of a loop's L
+
+
+@dataclass(frozen=True)
+class Network:
+    """Branches, nodes, ports and the couplings to write, of one extraction."""
+
+    extraction: Extraction
+    options: NetworkOptions
+    node_names: dict[int, str]  # graph node id -> netlist node name
+    reserved_names: frozenset[str]  # netlist node names taken so far (lower-case)
+    kept: frozenset[int]  # nodes that stay nodes: pins, anchors, planes, probe contacts and ends
+    conducting: np.ndarray  # (N,) bool: segments that can carry a conduction current
+    branches: list[Branch] = field(default_factory=list)
+    L: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))  # (B, B) H, branch matrix
+    R: np.ndarray = field(default_factory=lambda: np.zeros(0))  # (B,) ohm
+    selection: CouplingSelection | None = None  # the couplings as written
+    threshold: ThresholdChoice | None = None  # how the threshold was chosen (None: no copper)
+
+    @property
+    def min_coupling(self) -> float:
+        """The |k| threshold of the written couplings."""
+        if self.threshold is not None:
+            return float(self.threshold.min_coupling)
+        given = self.options.min_coupling
+        return FALLBACK if given is None else float(given)
+
+    @property
+    def graph(self) -> CopperGraph:
+        return self.extraction.inputs.graph
+
+    @property
+    def node_from(self) -> np.ndarray:
+        """(B,) graph node id where each branch starts."""
+        return np.array([b.node_from for b in self.branches], dtype=np.int64)
+
+    @property
+    def node_to(self) -> np.ndarray:
+        """(B,) graph node id where each branch ends."""
+        return np.array([b.node_to for b in self.branches], dtype=np.int64)
+
+    def incidence(self) -> sp.csc_matrix:
+        """Node-branch incidence (graph nodes x branches): +1 at a branch's
+        ``from`` node, -1 at its ``to`` node."""
+        from parasite.network.solve import incidence
+
+        return incidence(self.node_from, self.node_to, len(self.graph.nodes))
+
+
+def _selector(Lb: np.ndarray, leads: np.ndarray) -> tuple[Any, Any]:
+    """Memoised coupling selection per threshold, and the matrix it writes."""
+    selections: dict[float, CouplingSelection] = {}
+
+    def select(thr: float) -> CouplingSelection:
+        if thr not in selections:
+            selections[thr] = (select_couplings(Lb, thr, leads) if leads.any()
+                               else choose_couplings(Lb, thr))
+        return selections[thr]
+
+    def written(thr: float) -> np.ndarray:
+        sel = select(thr)
+        return written_matrix(sel.self_inductance, sel.i, sel.j, sel.k)
+
+    return select, written
+
+
+def build_network(extraction: Extraction, options: NetworkOptions | None = None) -> Network:
+    """The circuit of ``extraction``'s copper (see the module docstring)."""
+    options = options or NetworkOptions()
+    inputs = extraction.inputs
+    graph = inputs.graph
+    allocator = NameAllocator(inputs.netlist.node_names())
+    given = options.min_coupling
+    if not graph.segments:
+        return Network(extraction, options, {}, allocator.taken(), frozenset(),
+                       np.zeros(0, dtype=bool))
+    names = node_names(graph, allocator)
+    keep = {p.node for p in graph.pins} | set(graph.anchors.values())
+    keep |= {pl.node for pl in graph.planes}
+    keep |= kept_nodes(graph)
+    mask = conducting_segments(graph, keep)
+    branches = build_branches(graph, mask, keep, merge=not options.keep_segments)
+    reserved, kept = allocator.taken(), frozenset(keep)
+    if not branches:
+        return Network(extraction, options, names, reserved, kept, mask, branches,
+                       threshold=ThresholdChoice(FALLBACK if given is None else given,
+                                                 "no copper carries current", {}))
+    Lb, Rb = branch_matrices(branches, extraction.L, extraction.R)
+    select, written = _selector(Lb, lead_branches(graph, branches))
+    if given is None:
+        choice = choose_threshold(graph, inputs.netlist, branches, Lb, Rb, written,
+                                  tolerance=options.loop_tolerance)
+    else:
+        choice = ThresholdChoice(given, "given (--min-coupling)", {})
+    return Network(extraction, options, names, reserved, kept, mask, branches, Lb, Rb,
+                   selection=select(choice.min_coupling), threshold=choice)
