@@ -148,9 +148,7 @@ def parse_output(text: str) -> tuple[list[Table], list[tuple[str, str]], list[st
                 continue
             except ValueError:
                 pass
-        close()
-        header, rows = None, []
-        if line.strip():
+        if line.strip():  # a note; gnucap may print one between a table's rows
             notes.append(line)
     close()
     return tables, messages, notes
