@@ -14,7 +14,8 @@ geometric direction of the branch, and the coupling statement
 the two branches in those directions (k = M / sqrt(La Lb)).
 
 The original lines are untouched except for the node tokens of placed
-terminals; the new cards go before the top-level ``.end``.
+terminals; the new cards go after the last top-level element, before the first
+analysis or output card (:mod:`parasite.netlist.placement`).
 """
 
 from __future__ import annotations
