@@ -185,9 +185,10 @@ def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAl
 
     ngspice writes every node when a deck has no ``.save`` card and only the
     listed ones when it has one; ``.save`` cards add up (ngspice 39, checked by
-    a run). So the card lists the probe nodes, with ``all`` in front when the
-    main file has no ``.save`` of its own (a ``.save`` in an included file is
-    not looked for: then ``all`` writes more than that file asked for)."""
+    a run). So the card, listing the probe nodes, is written only when the main
+    file has a ``.save`` of its own: without one every node is written anyway,
+    and gnucap, which has no ``.save`` card and stops reading at one, can run
+    the deck (a ``.save`` in an included file is not looked for)."""
     cards: list[str] = []
     saved: list[str] = []
     for pn in probe_nodes(graph):
@@ -204,7 +205,6 @@ def instrument_cards(graph: CopperGraph, names: dict[int, str], elements: NameAl
         cards.append(f"{elements.new('Rprobe_' + tag)} {plus} {minus} {ins.resistance:.10e}")
         cards.append(f"{elements.new('Cprobe_' + tag)} {plus} {minus} {ins.capacitance:.10e}")
         saved += [f"v({plus})", f"v({minus})"]
-    if saved:
-        lead = [] if has_save_card(netlist_bytes) else ["all"]
-        cards.append(".save " + " ".join(lead + saved))
+    if saved and has_save_card(netlist_bytes):
+        cards.append(".save " + " ".join(saved))
     return cards

@@ -33,5 +33,20 @@ def _ngspice_version() -> str:
     return out.strip().splitlines()[0] if out.strip() else "unknown"
 
 
+def _gnucap_version() -> str:
+    exe = shutil.which("gnucap")
+    if exe is None:
+        return "gnucap not found"
+    try:  # the banner, printed before gnucap reads commands (none: standard input is empty)
+        out = subprocess.run([exe], input="", capture_output=True, text=True, timeout=20).stdout
+    except (OSError, subprocess.SubprocessError):
+        return "gnucap unreadable"
+    for line in out.splitlines():
+        if line.startswith("main version:"):
+            return "gnucap " + line.split(":", 1)[1].strip()
+    return "gnucap unknown"
+
+
 def pytest_report_header(config: object) -> list[str]:
-    return [f"numpy {numpy.__version__}, scipy {scipy.__version__}, {_ngspice_version()}"]
+    return [f"numpy {numpy.__version__}, scipy {scipy.__version__}, {_ngspice_version()}, "
+            f"{_gnucap_version()}"]

@@ -3,8 +3,9 @@
 Only the main file is ever rewritten; included files are read for their
 models, subcircuits and elements. Writing an unmodified netlist gives back its
 bytes exactly; a renamed node changes only that token; appended cards go
-before the top-level ``.end`` (or at the end of the file), outside any
-``.subckt`` or ``.control`` block, with the file's own line ending.
+after the last top-level element and before the first card that uses the
+circuit (analysis, output, ``.control``, ``.end``; see
+:mod:`parasite.netlist.placement`), with the file's own line ending.
 """
 
 from __future__ import annotations
@@ -24,7 +25,8 @@ from parasite.netlist.kinds import (
 )
 from parasite.netlist.lines import PhysicalLine, ascii_lower, split_lines
 from parasite.netlist.names import NODE_NAME_RULE, canonical_node, is_writable_node_name
-from parasite.netlist.reader import ElementCard, Reader, ReadResult, Scope, SourceFile, shown
+from parasite.netlist.placement import PlacingReader, insertion_line
+from parasite.netlist.reader import ElementCard, ReadResult, Scope, SourceFile, shown
 from parasite.netlist.records import Element, Model, Subckt
 
 _BIN_SUFFIX = re.compile(r"\.\d+\Z")
@@ -72,8 +74,10 @@ class Netlist:
 
     def _parse(self) -> None:
         main = SourceFile(self.path, self._base_dir, self._lines, main=True, path=self._file)
-        result: ReadResult = Reader(self._cache).read(main)
+        reader = PlacingReader(self._cache)
+        result: ReadResult = reader.read(main)
         self._result = result
+        self._element_includes = reader.element_includes
         self._top: dict[str, ElementCard] = {}
         for card in result.elements:
             if card.scope is None:
@@ -290,11 +294,15 @@ class Netlist:
         self._node_names = None
 
     def append_cards(self, lines: list[str]) -> None:
-        """Insert ``lines`` (card text without line ends) before the top-level
-        ``.end`` of the main file, or at its end; outside any ``.subckt`` or
-        ``.control`` block; with the file's line ending (an empty file gets an
-        empty title line first). The result is read
-        again, so cards in error raise :class:`NetlistError` and change nothing."""
+        """Insert ``lines`` (card text without line ends) into the main file after
+        its last top-level element card and before its first top-level analysis,
+        output or control card (``.tran``, ``.ac``, ``.print``, ``.save``,
+        ``.control``, ``.end``, ...), where every SPICE-family simulator sees them
+        before the circuit is used (the rules and the reasons are in
+        :mod:`parasite.netlist.placement`); never inside a ``.subckt``, ``.if``
+        or ``.control`` block; with the file's line ending (an empty file gets an
+        empty title line first). The result is read again, so cards in error
+        raise :class:`NetlistError` and change nothing."""
         for text in lines:
             if not isinstance(text, str) or "\n" in text or "\r" in text:
                 raise NetlistError(
@@ -302,11 +310,7 @@ class Netlist:
                     file=self.path,
                 )
         eol = next((ln.eol for ln in self._lines if ln.eol), "\n")
-        at = self._result.main_end
-        if at is None:
-            at = self._result.main_open_control
-        if at is None:
-            at = len(self._lines)
+        at = insertion_line(self._result.main_cards, len(self._lines), self._element_includes)
         saved = [(ln, ln.text, ln.eol, ln.modified) for ln in self._lines]
         before = list(self._lines)
         new = [PhysicalLine.new(text, eol) for text in lines]

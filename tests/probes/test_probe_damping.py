@@ -108,7 +108,7 @@ def test_cards_and_reading_nodes(tmp_path: Path) -> None:
     assert re.search(r"^Rdamp_p probe_p_tip probe_p_tip_in 2\.0+e\+01$", text, re.M)
     assert re.search(r"^Rprobe_p probe_p_tip_in probe_p_gnd 1\.0+e\+07$", text, re.M)
     assert re.search(r"^Cprobe_p probe_p_tip_in probe_p_gnd 1\.20+e-11$", text, re.M)
-    assert ".save all v(probe_p_tip_in) v(probe_p_gnd)" in text
+    assert ".save" not in text  # no .save of its own: ngspice writes every node anyway
     # a netlist node already named like the inner node moves the probe's names aside
     taken = _augment(tmp_path, "{ resistance = 1e7, capacitance = 12e-12, damping = 20 }",
                      extra="RX probe_p_tip_in 0 1k")

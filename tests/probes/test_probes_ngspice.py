@@ -310,7 +310,8 @@ def test_reading_is_saved_beside_the_netlists_own_vectors(tmp_path: Path, own_sa
     """ngspice writes only the vectors of a deck's .save cards, and .save cards
     add up (checked with ngspice 39, see docs/probes.md): with a .save of its
     own the netlist keeps its list and gains the probe's nodes; without one,
-    ngspice still writes every node, the probe's included."""
+    ngspice still writes every node, the probe's included, and no .save card
+    is added (gnucap 0.36 stops reading a deck at one)."""
     deck = (FIXTURES / "probe_resistor.cir").read_text()
     if own_save:
         deck = deck.replace(".end", ".save v(a)\n.end")
@@ -319,7 +320,7 @@ def test_reading_is_saved_beside_the_netlists_own_vectors(tmp_path: Path, own_sa
     names = set(res.last.vectors)
     assert {f"v({p['plus']})", f"v({p['minus']})", "v(a)"} <= names
     assert ("v(b)" in names) is not own_save
-    assert text.count(".save") == (2 if own_save else 1)
+    assert text.count(".save") == (2 if own_save else 0)
 
 
 def test_ring_reads_the_probe(tmp_path: Path) -> None:
