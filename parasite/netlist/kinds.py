@@ -17,10 +17,12 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Literal
 
+from parasite.netlist.digital import layout as digital_layout
+from parasite.netlist.digital import primitive, timing_model
 from parasite.netlist.lines import ascii_lower
 from parasite.netlist.tokens import Token
 
-NodeRule = Literal["fixed", "controlled", "model", "subckt", "xspice", "none"]
+NodeRule = Literal["fixed", "controlled", "model", "subckt", "xspice", "none", "u"]
 
 
 @dataclass(frozen=True)
@@ -86,8 +88,9 @@ ELEMENT_KINDS: dict[str, ElementKind] = {
                     ("p", "n", "cp", "cn"), 4, 4, "fixed", 0),
         ElementKind("T", "lossless transmission line", "TXXX n1 n2 n3 n4 z0=value td=value",
                     ("p1", "n1", "p2", "n2"), 4, 4, "fixed"),
-        ElementKind("U", "uniform distributed RC line", "UXXX n1 n2 n3 mname l=len",
-                    ("1", "2", "3"), 3, 3, "fixed", 0),
+        ElementKind("U", "uniform distributed RC line, or a PSpice-style digital primitive",
+                    "UXXX n1 n2 n3 mname l=len | UXXX type(params) dpwr dgnd nodes... "
+                    "tmodel iomodel", ("1", "2", "3"), 3, None, "u", 0),
         ElementKind("V", "voltage source", "VXXX n+ n- <value>", ("p", "n"), 2, 2, "fixed"),
         ElementKind("W", "current-controlled switch", "WXXX n+ n- vnam mname", ("p", "n"), 2, 2,
                     "fixed", 1),
@@ -127,6 +130,7 @@ class Layout:
     aliases: Mapping[str, int]
     model: str | None = None
     subckt: str | None = None
+    opaque: str | None = None  # why the nodes of a card of unknown form are not told
 
 
 class Lookup:
@@ -351,7 +355,39 @@ def _none(kind: ElementKind, name: str, tokens: list[Token], lookup: Lookup | No
     return Layout((), (), {})
 
 
+def _u(kind: ElementKind, name: str, tokens: list[Token], lookup: Lookup | None) -> Layout:
+    """``U``: a uniform distributed RC line (ngspice 39 manual, 6.2: ``UXXX n1 n2 n3
+    mname``, a model of type ``urc``) or, with ngspice's PSpice compatibility, a
+    PSpice-style digital primitive (``parasite.netlist.digital``). Told apart by
+    form: the second field names a digital primitive and no ``urc`` model sits
+    where a URC line's model would. Any other form is passed through (opaque)."""
+    prim = primitive(tokens)
+    if prim is not None and not _urc_model_at(tokens, lookup):
+        found = digital_layout(tokens, prim)
+        if isinstance(found, str):
+            return _opaque(name, found)
+        spans, names = found
+        return Layout(spans, names, {}, timing_model(tokens, prim))
+    try:
+        return _fixed(kind, name, tokens, lookup)
+    except LayoutError as exc:
+        return _opaque(name, f"neither a URC line nor a known digital primitive ({exc})")
+
+
+def _urc_model_at(tokens: list[Token], lookup: Lookup | None) -> bool:
+    if lookup is None or not _plain(tokens, 4):
+        return False
+    model = lookup.model(tokens[4].text)
+    return model is not None and model.type == "urc"
+
+
+def _opaque(name: str, why: str) -> Layout:
+    return Layout((), (), {}, opaque=f"{name}: nodes not told: {why}; the card is passed "
+                  "through untouched and none of its terminals can take copper")
+
+
 _RULES: dict[str, Callable[[ElementKind, str, list[Token], Lookup | None], Layout | None]] = {
+    "u": _u,
     "fixed": _fixed,
     "controlled": _controlled,
     "model": _by_model,
