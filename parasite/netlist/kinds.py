@@ -362,16 +362,17 @@ def _u(kind: ElementKind, name: str, tokens: list[Token], lookup: Lookup | None)
     form: the second field names a digital primitive and no ``urc`` model sits
     where a URC line's model would. Any other form is passed through (opaque)."""
     prim = primitive(tokens)
+    why = "the second field names no digital primitive"
     if prim is not None and not _urc_model_at(tokens, lookup):
         found = digital_layout(tokens, prim)
-        if isinstance(found, str):
-            return _opaque(name, found)
-        spans, names = found
-        return Layout(spans, names, {}, timing_model(tokens, prim))
+        if not isinstance(found, str):
+            spans, names = found
+            return Layout(spans, names, {}, timing_model(tokens, prim))
+        why = found
     try:
         return _fixed(kind, name, tokens, lookup)
     except LayoutError as exc:
-        return _opaque(name, f"neither a URC line nor a known digital primitive ({exc})")
+        return _opaque(name, f"not a URC line ({exc}), and as a digital primitive: {why}")
 
 
 def _urc_model_at(tokens: list[Token], lookup: Lookup | None) -> bool:
