@@ -368,6 +368,8 @@ def _u(kind: ElementKind, name: str, tokens: list[Token], lookup: Lookup | None)
         if not isinstance(found, str):
             spans, names = found
             return Layout(spans, names, {}, timing_model(tokens, prim))
+        if lookup is not None:  # a URC line only with a urc model where its model sits
+            return _opaque(name, found)
         why = found
     try:
         return _fixed(kind, name, tokens, lookup)

@@ -122,7 +122,7 @@ def test_nodes_agree_with_ngspice_translation(path: Path, tmp_path: Path) -> Non
         name = card.split()[0]
         net = parse_netlist(("t\n" + card + "\n").encode(), "t.cir", tmp_path)
         el = net.element(name)
-        ours = dict(zip(el.terminal_names, el.nodes))
+        ours = dict(zip(el.terminal_names, el.nodes, strict=True))
         key = "a" + name.lower()
         if key in repl:
             theirs = repl[key]
