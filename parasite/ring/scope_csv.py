@@ -10,9 +10,15 @@ Accepted, in any combination:
 * time in the first numeric column, then one or more channels; columns that
   are not numeric on every data line (settings printed beside the data) are
   left out;
-* units in the column names (``Time (us)``, ``CH1[mV]``, ``t/ns``, ``V in
-  volts``) or on a line of their own (``s,V``); SI prefixes are applied. No
-  unit: seconds and volts are assumed (and said in the warnings);
+* units in the column names (``Time (us)``, ``time(s)``, ``CH1[mV]``,
+  ``Time [µs]``, ``t/ns``, ``Time/ns``, ``V in volts``, and as a suffix after
+  ``_``: ``t_ns``, ``sw_V``, ``TIME_US``) or on a line of their own (``s,V``);
+  SI prefixes are applied (a unit written all in capitals is read with a
+  lower-case prefix: ``US`` is µs, ``MS`` ms, ``MV`` mV). A time column whose
+  unit the file does not tell is an error that asks for the unit
+  (``time_unit``, on the command line ``--time-unit``): a guess would be off
+  by up to 10^12. A channel without a unit is taken as volts (and said in the
+  warnings);
 * a sample-number column instead of time, when the header gives the time of
   the first sample and the sampling interval (``Start``/``Increment``,
   ``Sample Interval``, ``XStart``/``dt`` ...);
@@ -84,14 +90,19 @@ class ScopeTrace:
         )
 
 
-def read_scope_csv(path: str | Path) -> ScopeTrace:
-    """Read an oscilloscope export (see the module notes for what is accepted)."""
+TIME_UNITS = ("s", "ms", "us", "ns", "ps")  # accepted values of ``time_unit``
+
+
+def read_scope_csv(path: str | Path, *, time_unit: str | None = None) -> ScopeTrace:
+    """Read an oscilloscope export (see the module notes for what is accepted).
+    ``time_unit`` (one of :data:`TIME_UNITS`) is the unit of the time column
+    when the file does not say it; where the file says it, the two must agree."""
     p = Path(path)
     try:
         data = p.read_bytes()
     except OSError as exc:
         raise MeasurementError(f"cannot read the file: {exc.strerror}", file=str(p)) from exc
-    return parse_scope_csv(data, name=str(p))
+    return parse_scope_csv(data, name=str(p), time_unit=time_unit)
 
 
 def _decode(data: bytes) -> str:
@@ -142,8 +153,12 @@ def _choose_separator(lines: list[str]) -> str | None:
     return None
 
 
-def parse_scope_csv(data: bytes, *, name: str = "<csv>") -> ScopeTrace:
-    """Parse the bytes of an oscilloscope export; ``name`` is used in errors."""
+def parse_scope_csv(data: bytes, *, name: str = "<csv>", time_unit: str | None = None) -> ScopeTrace:
+    """Parse the bytes of an oscilloscope export; ``name`` is used in errors,
+    ``time_unit`` as in :func:`read_scope_csv`."""
+    if time_unit is not None and time_unit not in TIME_UNITS:
+        raise MeasurementError(f"time unit {time_unit!r}: expected one of "
+                               + ", ".join(TIME_UNITS), file=name)
     text = _decode(data)
     lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
     if not any(ln.strip() for ln in lines):
@@ -250,9 +265,24 @@ def parse_scope_csv(data: bytes, *, name: str = "<csv>") -> ScopeTrace:
             raise MeasurementError(f"the sampling interval {dt!r} is not positive", file=name)
     else:
         tunit = units[0]
-        if tunit is None:
-            warnings.append(f"no unit for the time column {xname!r}: seconds assumed")
-            tunit = "s"
+        if tunit is None and time_unit is None:
+            raise MeasurementError(
+                f"the unit of the time column {xname!r} (column {cols[0] + 1}) is not given "
+                "in the file; say it with --time-unit (s, ms, us, ns or ps), or put it in "
+                "the column name (e.g. 't_ns', 'Time (us)')",
+                file=name,
+                line=first if first else first + 1,
+            )
+        if tunit is not None and time_unit is not None and (
+            _time_scale(tunit) != _time_scale(time_unit)
+        ):
+            raise MeasurementError(
+                f"the time column {xname!r} is in {tunit!r} by the file, but the time unit "
+                f"given is {time_unit!r}",
+                file=name,
+                line=first if first else first + 1,
+            )
+        tunit = tunit if tunit is not None else time_unit
         scale = _time_scale(tunit)
         if scale is None:
             raise MeasurementError(
@@ -308,11 +338,19 @@ _UNIT_IN_NAME = re.compile(
 )
 
 
+# a unit after "_" at the end of a name: "t_ns", "sw_V", "TIME_US" (not after a
+# blank: "Channel A" is a channel's name, not amperes)
+_UNIT_SUFFIX = re.compile(r"^(?P<name>.*?[^_])_+(?P<unit>[A-Za-zµμ]+)$")
+
+
 def _name_and_unit(tok: str) -> tuple[str, str | None]:
     m = _UNIT_IN_NAME.match(tok.strip())
     if m:
         unit = next(g for g in (m.group("a"), m.group("b"), m.group("c"), m.group("d")) if g)
         return (m.group("name").strip() or tok.strip()), unit.strip()
+    m = _UNIT_SUFFIX.match(tok.strip())
+    if m and _looks_like_unit(m.group("unit")):
+        return m.group("name"), m.group("unit")
     return tok.strip(), None
 
 
@@ -405,10 +443,17 @@ def _number_and_unit(tok: str, decimal_comma: bool) -> tuple[float | None, str]:
         return None, ""
 
 
+def _caps(u: str) -> str:
+    """A unit written all in capitals (``US``, ``MV``) with its prefix in lower case."""
+    if len(u) >= 2 and u.isupper() and u[0] in "PNUMK":
+        return u[0].lower() + u[1:]
+    return u
+
+
 def _time_scale(unit: str | None) -> float | None:
     if unit is None:
         return None
-    u = unit.strip()
+    u = _caps(unit.strip())
     if u.lower() in _TIME_UNITS:
         return 1.0
     if len(u) >= 2 and u[0] in _PREFIX and u[1:].lower() in _TIME_UNITS and u[0] != "M":
@@ -417,7 +462,7 @@ def _time_scale(unit: str | None) -> float | None:
 
 
 def _value_scale(unit: str) -> tuple[float | None, str]:
-    u = unit.strip()
+    u = _caps(unit.strip())
     if u.lower() in _VALUE_UNITS:
         return 1.0, _VALUE_UNITS[u.lower()]
     if len(u) >= 2 and u[0] in _PREFIX and u[1:].lower() in _VALUE_UNITS:
