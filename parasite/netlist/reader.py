@@ -25,8 +25,8 @@ ngspice 39 behaviour followed here (each checked with ``ngspice -b``):
   error there, a comment otherwise), so ``U1 BUF $G_DPWR $G_DGND a y tm io``
   keeps its nodes. ngspice cannot run such a digital primitive without that
   mode (read without it the card is ``U1 BUF``), so a netlist with a ``U``
-  card that names a PSpice digital primitive and is incomplete when ``$``
-  starts comments is read again with ``$`` as an ordinary character.
+  card that names a PSpice digital primitive and is cut short by a ``$`` is
+  read again with ``$`` as an ordinary character.
 """
 
 from __future__ import annotations
@@ -161,13 +161,22 @@ class Reader:
         self._main_cards: list[Card] = []
 
     def read(self, main: SourceFile) -> ReadResult:
-        result = self._read(main)
+        try:
+            result: ReadResult | None = self._read(main)
+        except NetlistError:
+            # a '$' cut may have broken a later card (a "\\" continuation cut off)
+            if self._pspice_card is None or not self._dollar:
+                raise
+            result = None
         if self._pspice_card is None or not self._dollar:
+            assert result is not None
             return result
         file, line, name = self._pspice_card
         try:
             again = Reader(self._load, dollar=False)._read(main)
         except NetlistError:
+            if result is None:
+                raise
             return result  # not a netlist of the PSpice mode after all: as ngspice reads it
         again.warnings.insert(0, (
             f"{file}:{line}: warning: {name} is a PSpice-style digital primitive, which ngspice "
@@ -424,13 +433,14 @@ class Reader:
         name = tokens[0].text
         line = card.first + 1
         try:
-            found = layout(tokens, None)
+            layout(tokens, None)
         except LayoutError as exc:
             raise NetlistError(f"{exc}; card: {shown(text.text)!r}", file=src.name,
                                line=line) from None
-        if (letter == "U" and found is not None and found.opaque and self._pspice_card is None
-                and primitive(tokens) is not None):
-            self._pspice_card = (src.name, line, name)
+        if (letter == "U" and self._dollar and self._pspice_card is None
+                and primitive(tokens) is not None
+                and any(src.lines[g.line].text[g.end : g.end + 1] == "$" for g in card.segments)):
+            self._pspice_card = (src.name, line, name)  # a digital primitive cut at a '$'
         key = ascii_lower(name)
         scope = self._stack[-1] if self._stack else None
         cond = tuple((a, b) for a, b in self._if_stack)
