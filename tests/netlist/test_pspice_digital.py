@@ -19,7 +19,7 @@ import pytest
 from click.testing import CliRunner
 
 from parasite.cli import main
-from parasite.errors import NetlistError
+from parasite.errors import NetlistError, ParasiteError
 from parasite.netlist import parse_netlist, read_netlist
 
 from ..test_netlist_support import FIXTURES, needs_ngspice, run_deck
@@ -201,3 +201,25 @@ def test_pspice_analog_forms_give_their_nodes() -> None:
         "VCC": ("vcc", "0"), "COUT": ("out", "0"),
     }
     assert net.warnings == []
+
+
+def test_copper_beside_an_unknown_form_and_a_pin_on_it(tmp_path: Path) -> None:
+    """With copper on other nets, a U card of unknown form is written back
+    untouched; a pin on one of its terminals is an error that names it."""
+    from parasite.augment import augment_files
+
+    from ..test_augment_ngspice import HEAD, _pin, _trace
+
+    odd = "U9 LOGICEXP(2,1) $G_DPWR $G_DGND a b y D0 IO"
+    net = tmp_path / "c.cir"
+    net.write_text(f"t\nV1 a 0 DC 1\nR1 a b 1\nC1 b 0 1n\n{odd}\n.tran 1n 10n\n.end\n")
+    routes = tmp_path / "c.routes.toml"
+    routes.write_text(HEAD + _trace("b", [(0, 0), (10, 0)], 0.5)
+                      + _pin("R1:2", (0, 0)) + _pin("C1:1", (10, 0)))
+    out = augment_files(str(net), str(routes)).netlist_bytes.decode()
+    assert f"\n{odd}\n" in out
+    routes.write_text(HEAD + _trace("b", [(0, 0), (10, 0)], 0.5)
+                      + _pin("R1:2", (0, 0)) + _pin("U9:1", (10, 0)))
+    with pytest.raises(ParasiteError, match=r"c\.routes\.toml:\d+: error: pin\[1\]\.terminal: "
+                       r"terminal 'U9:1': element U9 has no terminal"):
+        augment_files(str(net), str(routes))
