@@ -40,12 +40,12 @@ from pathlib import Path
 import numpy as np
 
 from parasite.errors import MeasurementError
+from parasite.ring.scope_units import TIME_UNITS
+from parasite.ring.scope_units import looks_like_unit as _looks_like_unit
+from parasite.ring.scope_units import name_and_unit as _name_and_unit
+from parasite.ring.scope_units import time_scale as _time_scale
+from parasite.ring.scope_units import value_scale as _value_scale
 
-_PREFIX = {"": 1.0, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3,
-           "k": 1e3, "K": 1e3, "M": 1e6}
-_TIME_UNITS = {"s", "sec", "secs", "second", "seconds"}
-_VALUE_UNITS = {"v": "V", "volt": "V", "volts": "V", "a": "A", "amp": "A", "amps": "A",
-                "ampere": "A", "amperes": "A"}
 _NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 _DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+([eE][+-]?\d+)?$")
 _TIME_NAMES = {"time", "t", "x", "x-axis", "s", "second", "seconds", "sec", "zeit", "temps",
@@ -88,9 +88,6 @@ class ScopeTrace:
             + " (or give its number, 1 to " + str(len(names)) + ")",
             file=self.path,
         )
-
-
-TIME_UNITS = ("s", "ms", "us", "ns", "ps")  # accepted values of ``time_unit``
 
 
 def read_scope_csv(path: str | Path, *, time_unit: str | None = None) -> ScopeTrace:
@@ -332,33 +329,6 @@ def parse_scope_csv(data: bytes, *, name: str = "<csv>", time_unit: str | None =
     )
 
 
-_UNIT_IN_NAME = re.compile(
-    r"^(?P<name>.*?)\s*(?:\((?P<a>[^)]*)\)|\[(?P<b>[^\]]*)\]|/\s*(?P<c>\S+)|\s+in\s+(?P<d>\S+))\s*$",
-    re.IGNORECASE,
-)
-
-
-# a unit after "_" at the end of a name: "t_ns", "sw_V", "TIME_US" (not after a
-# blank: "Channel A" is a channel's name, not amperes)
-_UNIT_SUFFIX = re.compile(r"^(?P<name>.*?[^_])_+(?P<unit>[A-Za-zµμ]+)$")
-
-
-def _name_and_unit(tok: str) -> tuple[str, str | None]:
-    m = _UNIT_IN_NAME.match(tok.strip())
-    if m:
-        unit = next(g for g in (m.group("a"), m.group("b"), m.group("c"), m.group("d")) if g)
-        return (m.group("name").strip() or tok.strip()), unit.strip()
-    m = _UNIT_SUFFIX.match(tok.strip())
-    if m and _looks_like_unit(m.group("unit")):
-        return m.group("name"), m.group("unit")
-    return tok.strip(), None
-
-
-def _looks_like_unit(tok: str) -> bool:
-    t = tok.strip().strip("()[]").strip()
-    return _time_scale(t) is not None or _value_scale(t)[0] is not None
-
-
 def _column_names(
     header: list[str], sep: str | None, cols: list[int], decimal_comma: bool
 ) -> tuple[list[str], list[str | None]]:
@@ -441,30 +411,3 @@ def _number_and_unit(tok: str, decimal_comma: bool) -> tuple[float | None, str]:
         return float(num), m.group(2)
     except ValueError:
         return None, ""
-
-
-def _caps(u: str) -> str:
-    """A unit written all in capitals (``US``, ``MV``) with its prefix in lower case."""
-    if len(u) >= 2 and u.isupper() and u[0] in "PNUMK":
-        return u[0].lower() + u[1:]
-    return u
-
-
-def _time_scale(unit: str | None) -> float | None:
-    if unit is None:
-        return None
-    u = _caps(unit.strip())
-    if u.lower() in _TIME_UNITS:
-        return 1.0
-    if len(u) >= 2 and u[0] in _PREFIX and u[1:].lower() in _TIME_UNITS and u[0] != "M":
-        return _PREFIX[u[0]]
-    return None
-
-
-def _value_scale(unit: str) -> tuple[float | None, str]:
-    u = _caps(unit.strip())
-    if u.lower() in _VALUE_UNITS:
-        return 1.0, _VALUE_UNITS[u.lower()]
-    if len(u) >= 2 and u[0] in _PREFIX and u[1:].lower() in _VALUE_UNITS:
-        return _PREFIX[u[0]], _VALUE_UNITS[u[1:].lower()]
-    return None, ""
