@@ -9,6 +9,12 @@ the model (a bipolar transistor's optional substrate node, a VDMOS power MOSFET
 with three nodes, a diode's thermal node) the rule is the one ngspice's own
 parser follows: the nodes are the fields before the first field that names a
 model, within the kind's range.
+
+A letter whose meaning depends on the dialect is told apart by the card's
+form: ``U`` is a URC line, or a PSpice-style digital primitive as ngspice's
+PSpice compatibility mode reads it (``parasite.netlist.digital``). A ``U``
+card of neither known form gets an opaque layout (:attr:`Layout.opaque`): no
+nodes, the card passed through untouched, and a pin on it is an error.
 """
 
 from __future__ import annotations
