@@ -223,3 +223,20 @@ def test_copper_beside_an_unknown_form_and_a_pin_on_it(tmp_path: Path) -> None:
     with pytest.raises(ParasiteError, match=r"c\.routes\.toml:\d+: error: pin\[1\]\.terminal: "
                        r"terminal 'U9:1': element U9 has no terminal"):
         augment_files(str(net), str(routes))
+
+
+def test_digital_primitives_in_an_included_library(tmp_path: Path) -> None:
+    """The usual layout: gates in a library file, read where it is included;
+    the whole netlist is then read in the PSpice mode's way (ngspice applies
+    the mode to every file, checked with ngspice -b)."""
+    lib = tmp_path / "gates.lib"
+    lib.write_text(".subckt inv1 a y\nU1 INV $G_DPWR $G_DGND a y TM IO\n"
+                   ".model TM ugate\n.model IO uio\n.ends\n")
+    main = tmp_path / "top.cir"
+    main.write_bytes(b"t\r\n.include gates.lib\r\nX1 in out inv1\r\nR1 out 0 1k\r\n.end\r\n")
+    net = read_netlist(main)
+    assert net.to_bytes() == main.read_bytes()
+    assert [e.nodes for e in net.elements] == [("in", "out"), ("out", "0")]
+    assert any(w.startswith(f"{tmp_path / 'gates.lib'}:2: warning: U1 is a PSpice-style")
+               for w in net.warnings), net.warnings
+    assert "$g_dpwr" in net.node_names()
