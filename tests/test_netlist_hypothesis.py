@@ -11,8 +11,10 @@
 * Letters whose meaning depends on the dialect are generated in each of their
   forms: ``U`` as a URC line and as a PSpice-style digital primitive (only in
   netlists written for ngspice's PSpice mode, where ``$`` starts no comment),
-  ``E``/``G`` with VALUE, TABLE and LAPLACE, ``W`` switches, ``A`` XSPICE
-  instances with ``[ ]`` vectors; ``U`` cards of unknown form pass through.
+  ``E``/``G`` with VALUE, TABLE and LAPLACE (PSpice's form; ngspice 39 refuses
+  LAPLACE, checked with ngspice -b, but its two nodes read the same), ``W``
+  switches, ``A`` XSPICE instances with ``[ ]`` vectors; ``U`` cards of
+  unknown form pass through.
 """
 
 from __future__ import annotations
