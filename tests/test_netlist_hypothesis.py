@@ -8,6 +8,13 @@
   outside reference that the generated text means what the reader says.
 * Random byte mutations of the fixtures either read or raise NetlistError;
   nothing else escapes.
+* Letters whose meaning depends on the dialect are generated in each of their
+  forms: ``U`` as a URC line and as a PSpice-style digital primitive (only in
+  netlists written for ngspice's PSpice mode, where ``$`` starts no comment),
+  ``E``/``G`` with VALUE, TABLE and LAPLACE (PSpice's form; ngspice 39 refuses
+  LAPLACE, checked with ngspice -b, but its two nodes read the same), ``W``
+  switches, ``A`` XSPICE instances with ``[ ]`` vectors; ``U`` cards of
+  unknown form pass through.
 """
 
 from __future__ import annotations
@@ -28,7 +35,8 @@ from .test_netlist_support import FIXTURES, needs_ngspice, run_deck
 # Words that mean something at a node's place in some card (E/G keywords,
 # model and subcircuit names used below): kept out of generated node names.
 RESERVED = {"vol", "cur", "value", "table", "laplace", "freq", "poly", "dmod", "qmod", "nmod",
-            "vmod", "smod", "subx", "dc", "params"}
+            "vmod", "smod", "subx", "dc", "params", "urcm", "wmod", "amod", "tdly", "iom",
+            "null"}
 
 node_name = st.one_of(
     st.sampled_from(["0", "gnd", "GND", "Gnd"]),
@@ -62,10 +70,33 @@ FORMS: dict[str, list[tuple[int, list[str]]]] = {
     "X": [(2, ["SUBX"]), (2, ["SUBX", "k=2"])],
     "B": [(2, ["V", "=", "{v(x)*2}"])],
     "K": [(0, ["Lk1", "Lk2", "0.5"])],
+    # letters whose form tells their meaning
+    "U": [(3, ["URCM", "l=1m"]), (3, ["URCM", "l=10u", "n=4"])],
+    "W": [(2, ["Vctl", "WMOD"])],
 }
+FORMS["E"] += [(2, ["VALUE", "=", "{v(x)*2}"]), (2, ["TABLE", "{v(x)}", "=", "(0,0)", "(1,2)"])]
+FORMS["G"] += [(2, ["LAPLACE", "{v(x)}", "=", "{1/(1+s)}"]), (2, ["VALUE", "{v(x)/1k}"])]
+
+# Forms with fields before their nodes: letter -> (fields before, node count,
+# fields after). "A": XSPICE (ngspice 39 manual, chapter 12: a vector of
+# nodes in brackets). "U" digital: PSpice-style primitives (type(params)
+# dpwr dgnd pins tmodel iomodel; pins: BUF 2, AND(2) 3, NOR(3) 4, BUF3 3
+# (in, enable, out), DFF(1) 6 (preb clrb clk d q qb)), the first two nodes
+# digital power and ground; generated only in PSpice-mode netlists.
+PREFIXED: dict[str, list[tuple[list[str], int, list[str]]]] = {
+    "A": [(["["], 2, ["]", "AMOD"]), ([], 2, ["AMOD"])],
+}
+DIGITAL = [(["BUF"], 4, ["TDLY", "IOM"]), (["INV"], 4, ["TDLY", "IOM"]),
+           (["AND(2)"], 5, ["TDLY", "IOM"]), (["NOR(3)"], 6, ["TDLY", "IOM", "MNTYMXDLY=0"]),
+           (["BUF3"], 5, ["TDLY", "IOM"]), (["DFF(1)"], 8, ["TDLY", "IOM", "IO_LEVEL=1"])]
+power_node = st.sampled_from(["$G_DPWR", "$G_DGND", "$g_dpwr", "DPWR"])
+# U cards of forms the reader does not know: passed through, no nodes
+OPAQUE_U = ["LOGICEXP(2,1) $G_DPWR $G_DGND a b y D0 IO", "AND(2) $G_DPWR $G_DGND a y TDLY IOM",
+            "weird"]
 
 MODELS = [".model DMOD D", ".model QMOD NPN", ".model NMOD NMOS level=1",
-          ".model VMOD VDMOS", ".model SMOD SW"]
+          ".model VMOD VDMOS", ".model SMOD SW", ".model URCM URC", ".model WMOD CSW",
+          ".model AMOD d_and"]
 SUBCKT = [".subckt SUBX p q params: k=1", "Rin p q {k}", ".ends SUBX"]
 
 comment_bytes = st.binary(max_size=12).map(lambda b: b.replace(b"\n", b"").replace(b"\r", b""))
@@ -84,34 +115,52 @@ def netlists(draw: st.DrawFn) -> tuple[bytes, Truth]:
     eol = draw(st.sampled_from([b"\n", b"\r\n"]))
     truth = Truth()
     lines: list[bytes] = [b"gen" + draw(comment_bytes).replace(b"+", b"")]
+    # written for ngspice's PSpice mode: digital primitives, no '$' comments
+    pspice = draw(st.booleans())
+    forms = sorted(FORMS) + sorted(PREFIXED) + (["digital", "opaque"] if pspice else [])
 
     def comment_line() -> bytes:
         lead = draw(st.sampled_from([b"*", b" *", b";", b"$"]))
         return lead + draw(comment_bytes)
 
     def inline_comment() -> bytes:
-        mark = draw(st.sampled_from([b" ;", b" $", b"\t$", b" //", b";"]))
-        return mark + draw(comment_bytes)
+        marks = [b" ;", b" //", b";"] + ([] if pspice else [b" $", b"\t$"])
+        return draw(st.sampled_from(marks)) + draw(comment_bytes)
 
     count = draw(st.integers(1, 12))
     used: set[str] = set()
     for _ in range(count):
-        letter = draw(st.sampled_from(sorted(FORMS)))
-        n, rest = draw(st.sampled_from(FORMS[letter]))
+        kind = draw(st.sampled_from(forms))
+        before: list[str] = []
+        opaque = None
+        if kind in FORMS:
+            letter = kind
+            n, rest = draw(st.sampled_from(FORMS[kind]))
+        elif kind in PREFIXED:
+            letter = kind
+            before, n, rest = draw(st.sampled_from(PREFIXED[kind]))
+        elif kind == "digital":
+            letter = "U"
+            before, n, rest = draw(st.sampled_from(DIGITAL))
+        else:
+            letter, n, rest = "U", 0, []
+            opaque = draw(st.sampled_from(OPAQUE_U)).split()
         suffix = draw(st.from_regex(r"[a-z0-9_]{1,4}", fullmatch=True))
         name = _case(draw, letter + suffix)
         if name.lower() in used or name.lower() in {"lk1", "lk2", "vctl"}:
             continue
         used.add(name.lower())
-        node_fields = [draw(node_name) for _ in range(n)]
+        node_fields = [draw(power_node if kind == "digital" and i < 2 else node_name)
+                       for i in range(n)]
         rest = [_case(draw, f) if f[0].isalpha() and "=" not in f and "(" not in f else f
                 for f in rest]
-        fields = [name, *node_fields, *rest]
+        before = [_case(draw, f) for f in before]
+        fields = [name, *before, *node_fields, *rest] if opaque is None else [name, *opaque]
         # split into physical lines: "+" continuations, or a trailing "\\"
         cuts = sorted(draw(st.sets(st.integers(1, len(fields) - 1), max_size=3))) \
             if len(fields) > 1 else []
         pieces = [fields[a:b] for a, b in zip([0, *cuts], [*cuts, len(fields)], strict=True)]
-        if any(p and p[0] == "=" for p in pieces[1:]):
+        if any(p and p[0] in ("=", "]") for p in pieces[1:]):
             pieces = [fields]
         lead = draw(st.sampled_from(["", " ", "\t"]))
         for k, piece in enumerate(pieces):
@@ -308,7 +357,7 @@ def test_ngspice_operating_point_matches_nodal_analysis_of_the_read_netlist(
 
 # -- mutations of the fixtures ---------------------------------------------------------------
 
-FIXTURE_FILES = sorted(FIXTURES.glob("*.cir"))
+FIXTURE_FILES = sorted(FIXTURES.glob("*.cir")) + sorted((FIXTURES / "pspice").glob("*.cir"))
 FIXTURE_BYTES = {p: p.read_bytes() for p in FIXTURE_FILES}
 
 mutation = st.one_of(

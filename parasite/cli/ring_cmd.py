@@ -17,6 +17,9 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @click.option("--node", required=True, help="The node whose edges ring (e.g. the switch node).")
 @click.option("--measured", "measured", type=click.Path(dir_okay=False), default=None,
               help="A measured waveform of the node: an oscilloscope export (CSV and the like).")
+@click.option("--time-unit", "time_unit", type=click.Choice(["s", "ms", "us", "ns", "ps"]),
+              default=None, help="Unit of the measured file's time column, when the file "
+              "does not say it (e.g. a column named just 'time').")
 @click.option("--channel", default=None,
               help="The channel of the measured file to use, by name or number (default: first).")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False), default=None,
@@ -46,7 +49,8 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @frequency_opt
 @quiet_opt
 @reports_input_errors
-def ring(netlist: str, routes: str, node: str, measured: str | None, channel: str | None,
+def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: str | None,
+         channel: str | None,
          plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
          loop_name: str | None, probe: str | None, all_edges: bool, timeout: float,
          min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
@@ -77,7 +81,8 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, channel: st
     progress = None if quiet else _progress(tran_of(netlist))
     try:
         result = analyse_ring(
-            netlist, routes, node, measured_path=measured, channel=channel, band=band,
+            netlist, routes, node, measured_path=measured, time_unit=time_unit,
+            channel=channel, band=band,
             capacitance=capacitance, loop=loop_name, min_coupling=min_coupling,
             frequency=frequency, timeout=timeout, progress=progress, probe=probe,
         )

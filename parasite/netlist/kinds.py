@@ -9,6 +9,12 @@ the model (a bipolar transistor's optional substrate node, a VDMOS power MOSFET
 with three nodes, a diode's thermal node) the rule is the one ngspice's own
 parser follows: the nodes are the fields before the first field that names a
 model, within the kind's range.
+
+A letter whose meaning depends on the dialect is told apart by the card's
+form: ``U`` is a URC line, or a PSpice-style digital primitive as ngspice's
+PSpice compatibility mode reads it (``parasite.netlist.digital``). A ``U``
+card of neither known form gets an opaque layout (:attr:`Layout.opaque`): no
+nodes, the card passed through untouched, and a pin on it is an error.
 """
 
 from __future__ import annotations
@@ -17,10 +23,12 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Literal
 
+from parasite.netlist.digital import layout as digital_layout
+from parasite.netlist.digital import primitive, timing_model
 from parasite.netlist.lines import ascii_lower
 from parasite.netlist.tokens import Token
 
-NodeRule = Literal["fixed", "controlled", "model", "subckt", "xspice", "none"]
+NodeRule = Literal["fixed", "controlled", "model", "subckt", "xspice", "none", "u"]
 
 
 @dataclass(frozen=True)
@@ -86,8 +94,9 @@ ELEMENT_KINDS: dict[str, ElementKind] = {
                     ("p", "n", "cp", "cn"), 4, 4, "fixed", 0),
         ElementKind("T", "lossless transmission line", "TXXX n1 n2 n3 n4 z0=value td=value",
                     ("p1", "n1", "p2", "n2"), 4, 4, "fixed"),
-        ElementKind("U", "uniform distributed RC line", "UXXX n1 n2 n3 mname l=len",
-                    ("1", "2", "3"), 3, 3, "fixed", 0),
+        ElementKind("U", "uniform distributed RC line, or a PSpice-style digital primitive",
+                    "UXXX n1 n2 n3 mname l=len | UXXX type(params) dpwr dgnd nodes... "
+                    "tmodel iomodel", ("1", "2", "3"), 3, None, "u", 0),
         ElementKind("V", "voltage source", "VXXX n+ n- <value>", ("p", "n"), 2, 2, "fixed"),
         ElementKind("W", "current-controlled switch", "WXXX n+ n- vnam mname", ("p", "n"), 2, 2,
                     "fixed", 1),
@@ -127,6 +136,7 @@ class Layout:
     aliases: Mapping[str, int]
     model: str | None = None
     subckt: str | None = None
+    opaque: str | None = None  # why the nodes of a card of unknown form are not told
 
 
 class Lookup:
@@ -351,7 +361,42 @@ def _none(kind: ElementKind, name: str, tokens: list[Token], lookup: Lookup | No
     return Layout((), (), {})
 
 
+def _u(kind: ElementKind, name: str, tokens: list[Token], lookup: Lookup | None) -> Layout:
+    """``U``: a uniform distributed RC line (ngspice 39 manual, 6.2: ``UXXX n1 n2 n3
+    mname``, a model of type ``urc``) or, with ngspice's PSpice compatibility, a
+    PSpice-style digital primitive (``parasite.netlist.digital``). Told apart by
+    form: the second field names a digital primitive and no ``urc`` model sits
+    where a URC line's model would. Any other form is passed through (opaque)."""
+    prim = primitive(tokens)
+    why = "the second field names no digital primitive"
+    if prim is not None and not _urc_model_at(tokens, lookup):
+        found = digital_layout(tokens, prim)
+        if not isinstance(found, str):
+            spans, names = found
+            return Layout(spans, names, {}, timing_model(tokens, prim))
+        if lookup is not None:  # a URC line only with a urc model where its model sits
+            return _opaque(name, found)
+        why = found
+    try:
+        return _fixed(kind, name, tokens, lookup)
+    except LayoutError as exc:
+        return _opaque(name, f"not a URC line ({exc}), and as a digital primitive: {why}")
+
+
+def _urc_model_at(tokens: list[Token], lookup: Lookup | None) -> bool:
+    if lookup is None or not _plain(tokens, 4):
+        return False
+    model = lookup.model(tokens[4].text)
+    return model is not None and model.type == "urc"
+
+
+def _opaque(name: str, why: str) -> Layout:
+    return Layout((), (), {}, opaque=f"{name}: nodes not told: {why}; the card is passed "
+                  "through untouched and none of its terminals can take copper")
+
+
 _RULES: dict[str, Callable[[ElementKind, str, list[Token], Lookup | None], Layout | None]] = {
+    "u": _u,
     "fixed": _fixed,
     "controlled": _controlled,
     "model": _by_model,

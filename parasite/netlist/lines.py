@@ -74,9 +74,10 @@ def _split_lf(data: bytes) -> list[bytes]:
     return out
 
 
-def content_end(text: str, start: int = 0) -> int:
+def content_end(text: str, start: int = 0, *, dollar: bool = True) -> int:
     """Index where the card content of ``text`` ends: at the first inline comment
-    (``;`` anywhere, ``//`` anywhere, ``$`` after a space, tab or comma), else the end."""
+    (``;`` anywhere, ``//`` anywhere, ``$`` after a space, tab or comma), else the end.
+    With ``dollar`` False ``$`` starts no comment (ngspice's PSpice compatibility mode)."""
     n = len(text)
     i = start
     while i < n:
@@ -85,7 +86,7 @@ def content_end(text: str, start: int = 0) -> int:
             return i
         if c == "/" and i + 1 < n and text[i + 1] == "/":
             return i
-        if c == "$" and i > start and text[i - 1] in " \t,":
+        if dollar and c == "$" and i > start and text[i - 1] in " \t,":
             return i
         i += 1
     return n
@@ -145,13 +146,16 @@ def _strip_backslashes(text: str, start: int, end: int) -> tuple[int, bool]:
     return end, False
 
 
-def group_cards(lines: list[PhysicalLine], *, title: bool) -> tuple[list[Card], list[int]]:
+def group_cards(
+    lines: list[PhysicalLine], *, title: bool, dollar: bool = True
+) -> tuple[list[Card], list[int]]:
     """Group physical lines into logical cards.
 
     With ``title`` the first line is the title card whatever it holds (ngspice
     drops it from the circuit; ``+`` lines right after it continue it and are
     dropped too). Comment and blank lines belong to no card. Returns the cards and
-    the indices of ``+`` lines that continued the title. Raises
+    the indices of ``+`` lines that continued the title; ``dollar`` as in
+    :func:`content_end`. Raises
     :class:`OrphanContinuation` for a ``+`` line with no card before it.
     """
     cards: list[Card] = []
@@ -175,7 +179,7 @@ def group_cards(lines: list[PhysicalLine], *, title: bool) -> tuple[list[Card], 
         if glue_next and current is not None:
             if not text.strip(BLANKS):
                 continue  # ngspice -b: blank lines between are skipped
-            end, glue_next = _strip_backslashes(text, 0, content_end(text))
+            end, glue_next = _strip_backslashes(text, 0, content_end(text, dollar=dollar))
             current.segments.append(Segment(idx, 0, end))
             current.last = idx
             continue
@@ -190,13 +194,13 @@ def group_cards(lines: list[PhysicalLine], *, title: bool) -> tuple[list[Card], 
         if lead == "+":
             if current is None:
                 raise OrphanContinuation(idx)
-            end, glue_next = _strip_backslashes(text, col + 1, content_end(text, col + 1))
+            end, glue_next = _strip_backslashes(text, col + 1, content_end(text, col + 1, dollar=dollar))
             current.segments.append(Segment(idx, col + 1, end))
             current.last = idx
             if current.kind == "title":
                 title_continuations.append(idx)
             continue
-        end, glue_next = _strip_backslashes(text, col, content_end(text, col))
+        end, glue_next = _strip_backslashes(text, col, content_end(text, col, dollar=dollar))
         if lead == ".":
             keyword = first_word(text[col:end])
             kind: CardKind = "control" if keyword == ".control" else "dot"

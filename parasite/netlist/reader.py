@@ -19,7 +19,14 @@ ngspice 39 behaviour followed here (each checked with ``ngspice -b``):
   ``.ends`` with none open is an error ("Mismatch of .subckt ... .ends");
 * element names are unique per subcircuit body and at top level
   (case-insensitive; ngspice: "device already exists"). Cards in different
-  branches of one ``.if``/``.else`` may share a name.
+  branches of one ``.if``/``.else`` may share a name;
+* with the PSpice compatibility mode (``set ngbehavior=ps`` or ``psa`` in
+  ``.spiceinit``) ``$`` never starts an inline comment (``R1 a 0 1k $x`` is an
+  error there, a comment otherwise), so ``U1 BUF $G_DPWR $G_DGND a y tm io``
+  keeps its nodes. ngspice cannot run such a digital primitive without that
+  mode (read without it the card is ``U1 BUF``), so a netlist with a ``U``
+  card that names a PSpice digital primitive and is cut short by a ``$`` is
+  read again with ``$`` as an ordinary character.
 """
 
 from __future__ import annotations
@@ -29,6 +36,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from parasite.errors import NetlistError
+from parasite.netlist.digital import primitive
 from parasite.netlist.kinds import LayoutError, layout
 from parasite.netlist.lines import (
     BLANKS,
@@ -132,8 +140,10 @@ class Reader:
     """Reads a main file and its includes once; ``load`` returns a file's lines
     (raising OSError when it cannot be read)."""
 
-    def __init__(self, load: Callable[[Path], list[PhysicalLine]]) -> None:
+    def __init__(self, load: Callable[[Path], list[PhysicalLine]], *, dollar: bool = True) -> None:
         self._load = load
+        self._dollar = dollar  # "$" after a blank starts a comment (not in PSpice mode)
+        self._pspice_card: tuple[str, int, str] | None = None  # file, line, element
         self.elements: list[ElementCard] = []
         self.models: dict[str, Model] = {}
         self.subckts: dict[str, Scope] = {}
@@ -151,6 +161,30 @@ class Reader:
         self._main_cards: list[Card] = []
 
     def read(self, main: SourceFile) -> ReadResult:
+        try:
+            result: ReadResult | None = self._read(main)
+        except NetlistError:
+            # a '$' cut may have broken a later card (a "\\" continuation cut off)
+            if self._pspice_card is None or not self._dollar:
+                raise
+            result = None
+        if self._pspice_card is None or not self._dollar:
+            assert result is not None
+            return result
+        file, line, name = self._pspice_card
+        try:
+            again = Reader(self._load, dollar=False)._read(main)
+        except NetlistError:
+            if result is None:
+                raise
+            return result  # not a netlist of the PSpice mode after all: as ngspice reads it
+        again.warnings.insert(0, (
+            f"{file}:{line}: warning: {name} is a PSpice-style digital primitive, which ngspice "
+            "runs only in its PSpice compatibility mode ('set ngbehavior=psa' in .spiceinit); "
+            "the netlist is read as that mode reads it ('$' starts no comment)"))
+        return again
+
+    def _read(self, main: SourceFile) -> ReadResult:
         if main.path is not None:
             self._includes.append((main.path, None, main.name))
         self._read_file(main, section=None)
@@ -181,7 +215,7 @@ class Reader:
         self, src: SourceFile, section: str | None, origin: tuple[str, int] | None = None
     ) -> None:
         try:
-            cards, title_lines = group_cards(src.lines, title=src.main)
+            cards, title_lines = group_cards(src.lines, title=src.main, dollar=self._dollar)
         except OrphanContinuation as exc:
             index = int(exc.args[0])
             raise NetlistError(
@@ -403,6 +437,10 @@ class Reader:
         except LayoutError as exc:
             raise NetlistError(f"{exc}; card: {shown(text.text)!r}", file=src.name,
                                line=line) from None
+        if (letter == "U" and self._dollar and self._pspice_card is None
+                and primitive(tokens) is not None
+                and any(src.lines[g.line].text[g.end : g.end + 1] == "$" for g in card.segments)):
+            self._pspice_card = (src.name, line, name)  # a digital primitive cut at a '$'
         key = ascii_lower(name)
         scope = self._stack[-1] if self._stack else None
         cond = tuple((a, b) for a, b in self._if_stack)

@@ -28,6 +28,7 @@ class Token:
     text: str
     start: int
     end: int
+    depth: int = 0  # parentheses open around the field (``AND(2)``: ``2`` has depth 1)
 
 
 @dataclass
@@ -69,13 +70,18 @@ def tokenize(text: str, *, brackets: bool = False) -> list[Token]:
     tokens: list[Token] = []
     n = len(text)
     i = 0
+    parens = 0
     while i < n:
         c = text[i]
         if c in SEPARATORS:
+            if c == "(":
+                parens += 1
+            elif c == ")" and parens:
+                parens -= 1
             i += 1
             continue
         if c == "=" or (brackets and c in "[]"):
-            tokens.append(Token(c, i, i + 1))
+            tokens.append(Token(c, i, i + 1, parens))
             i += 1
             continue
         j = i
@@ -94,6 +100,6 @@ def tokenize(text: str, *, brackets: bool = False) -> list[Token]:
             elif depth == 0 and (c in SEPARATORS or c == "=" or (brackets and c in "[]")):
                 break
             j += 1
-        tokens.append(Token(text[i:j], i, j))
+        tokens.append(Token(text[i:j], i, j, parens))
         i = j
     return tokens

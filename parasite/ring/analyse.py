@@ -136,6 +136,7 @@ def analyse_ring(
     node: str,
     *,
     measured_path: str | None = None,
+    time_unit: str | None = None,
     channel: str | None = None,
     band: float = DEFAULT_BAND,
     capacitance: float | None = None,
@@ -148,7 +149,8 @@ def analyse_ring(
 ) -> RingResult:
     """Simulate NETLIST as it is and with the copper of ROUTES (``routes_path``
     None: the original only), measure the ring at ``node``, and compare with a
-    measured waveform and fit a loop to it when ``measured_path`` is given.
+    measured waveform and fit a loop to it when ``measured_path`` is given
+    (``time_unit``: the unit of its time column when the file does not say it).
 
     ``progress(stage, simulated_time)`` is called during long simulations.
     ``capacitance`` (F) overrides the ring capacitance taken from the
@@ -185,7 +187,7 @@ def analyse_ring(
     if measured_path is not None:  # read it first: a bad file fails before the simulations
         from parasite.ring.scope_csv import read_scope_csv
 
-        trace = read_scope_csv(measured_path)
+        trace = read_scope_csv(measured_path, time_unit=time_unit)
         label, values = trace.channel(channel)
         if trace.units.get(label) != "V":
             raise MeasurementError(

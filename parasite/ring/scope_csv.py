@@ -10,9 +10,15 @@ Accepted, in any combination:
 * time in the first numeric column, then one or more channels; columns that
   are not numeric on every data line (settings printed beside the data) are
   left out;
-* units in the column names (``Time (us)``, ``CH1[mV]``, ``t/ns``, ``V in
-  volts``) or on a line of their own (``s,V``); SI prefixes are applied. No
-  unit: seconds and volts are assumed (and said in the warnings);
+* units in the column names (``Time (us)``, ``time(s)``, ``CH1[mV]``,
+  ``Time [µs]``, ``t/ns``, ``Time/ns``, ``V in volts``, and as a suffix after
+  ``_``: ``t_ns``, ``sw_V``, ``TIME_US``) or on a line of their own (``s,V``);
+  SI prefixes are applied (a unit written all in capitals is read with a
+  lower-case prefix: ``US`` is µs, ``MS`` ms, ``MV`` mV). A time column whose
+  unit the file does not tell is an error that asks for the unit
+  (``time_unit``, on the command line ``--time-unit``): a guess would be off
+  by up to 10^12. A channel without a unit is taken as volts (and said in the
+  warnings);
 * a sample-number column instead of time, when the header gives the time of
   the first sample and the sampling interval (``Start``/``Increment``,
   ``Sample Interval``, ``XStart``/``dt`` ...);
@@ -34,12 +40,12 @@ from pathlib import Path
 import numpy as np
 
 from parasite.errors import MeasurementError
+from parasite.ring.scope_units import TIME_UNITS
+from parasite.ring.scope_units import looks_like_unit as _looks_like_unit
+from parasite.ring.scope_units import name_and_unit as _name_and_unit
+from parasite.ring.scope_units import time_scale as _time_scale
+from parasite.ring.scope_units import value_scale as _value_scale
 
-_PREFIX = {"": 1.0, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3,
-           "k": 1e3, "K": 1e3, "M": 1e6}
-_TIME_UNITS = {"s", "sec", "secs", "second", "seconds"}
-_VALUE_UNITS = {"v": "V", "volt": "V", "volts": "V", "a": "A", "amp": "A", "amps": "A",
-                "ampere": "A", "amperes": "A"}
 _NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 _DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+([eE][+-]?\d+)?$")
 _TIME_NAMES = {"time", "t", "x", "x-axis", "s", "second", "seconds", "sec", "zeit", "temps",
@@ -84,14 +90,16 @@ class ScopeTrace:
         )
 
 
-def read_scope_csv(path: str | Path) -> ScopeTrace:
-    """Read an oscilloscope export (see the module notes for what is accepted)."""
+def read_scope_csv(path: str | Path, *, time_unit: str | None = None) -> ScopeTrace:
+    """Read an oscilloscope export (see the module notes for what is accepted).
+    ``time_unit`` (one of :data:`TIME_UNITS`) is the unit of the time column
+    when the file does not say it; where the file says it, the two must agree."""
     p = Path(path)
     try:
         data = p.read_bytes()
     except OSError as exc:
         raise MeasurementError(f"cannot read the file: {exc.strerror}", file=str(p)) from exc
-    return parse_scope_csv(data, name=str(p))
+    return parse_scope_csv(data, name=str(p), time_unit=time_unit)
 
 
 def _decode(data: bytes) -> str:
@@ -142,8 +150,12 @@ def _choose_separator(lines: list[str]) -> str | None:
     return None
 
 
-def parse_scope_csv(data: bytes, *, name: str = "<csv>") -> ScopeTrace:
-    """Parse the bytes of an oscilloscope export; ``name`` is used in errors."""
+def parse_scope_csv(data: bytes, *, name: str = "<csv>", time_unit: str | None = None) -> ScopeTrace:
+    """Parse the bytes of an oscilloscope export; ``name`` is used in errors,
+    ``time_unit`` as in :func:`read_scope_csv`."""
+    if time_unit is not None and time_unit not in TIME_UNITS:
+        raise MeasurementError(f"time unit {time_unit!r}: expected one of "
+                               + ", ".join(TIME_UNITS), file=name)
     text = _decode(data)
     lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
     if not any(ln.strip() for ln in lines):
@@ -250,9 +262,24 @@ def parse_scope_csv(data: bytes, *, name: str = "<csv>") -> ScopeTrace:
             raise MeasurementError(f"the sampling interval {dt!r} is not positive", file=name)
     else:
         tunit = units[0]
-        if tunit is None:
-            warnings.append(f"no unit for the time column {xname!r}: seconds assumed")
-            tunit = "s"
+        if tunit is None and time_unit is None:
+            raise MeasurementError(
+                f"the unit of the time column {xname!r} (column {cols[0] + 1}) is not given "
+                "in the file; say it with --time-unit (s, ms, us, ns or ps), or put it in "
+                "the column name (e.g. 't_ns', 'Time (us)')",
+                file=name,
+                line=first if first else first + 1,
+            )
+        if tunit is not None and time_unit is not None and (
+            _time_scale(tunit) != _time_scale(time_unit)
+        ):
+            raise MeasurementError(
+                f"the time column {xname!r} is in {tunit!r} by the file, but the time unit "
+                f"given is {time_unit!r}",
+                file=name,
+                line=first if first else first + 1,
+            )
+        tunit = tunit if tunit is not None else time_unit
         scale = _time_scale(tunit)
         if scale is None:
             raise MeasurementError(
@@ -300,25 +327,6 @@ def parse_scope_csv(data: bytes, *, name: str = "<csv>") -> ScopeTrace:
         warnings=warnings,
         first_data_line=first + 1,
     )
-
-
-_UNIT_IN_NAME = re.compile(
-    r"^(?P<name>.*?)\s*(?:\((?P<a>[^)]*)\)|\[(?P<b>[^\]]*)\]|/\s*(?P<c>\S+)|\s+in\s+(?P<d>\S+))\s*$",
-    re.IGNORECASE,
-)
-
-
-def _name_and_unit(tok: str) -> tuple[str, str | None]:
-    m = _UNIT_IN_NAME.match(tok.strip())
-    if m:
-        unit = next(g for g in (m.group("a"), m.group("b"), m.group("c"), m.group("d")) if g)
-        return (m.group("name").strip() or tok.strip()), unit.strip()
-    return tok.strip(), None
-
-
-def _looks_like_unit(tok: str) -> bool:
-    t = tok.strip().strip("()[]").strip()
-    return _time_scale(t) is not None or _value_scale(t)[0] is not None
 
 
 def _column_names(
@@ -403,23 +411,3 @@ def _number_and_unit(tok: str, decimal_comma: bool) -> tuple[float | None, str]:
         return float(num), m.group(2)
     except ValueError:
         return None, ""
-
-
-def _time_scale(unit: str | None) -> float | None:
-    if unit is None:
-        return None
-    u = unit.strip()
-    if u.lower() in _TIME_UNITS:
-        return 1.0
-    if len(u) >= 2 and u[0] in _PREFIX and u[1:].lower() in _TIME_UNITS and u[0] != "M":
-        return _PREFIX[u[0]]
-    return None
-
-
-def _value_scale(unit: str) -> tuple[float | None, str]:
-    u = unit.strip()
-    if u.lower() in _VALUE_UNITS:
-        return 1.0, _VALUE_UNITS[u.lower()]
-    if len(u) >= 2 and u[0] in _PREFIX and u[1:].lower() in _VALUE_UNITS:
-        return _PREFIX[u[0]], _VALUE_UNITS[u[1:].lower()]
-    return None, ""
