@@ -17,19 +17,20 @@ amplitudes, phases, c and s are solved linearly for each trial alpha, omega):
 1. The ring starts where the waveform first reaches its final level after the
    edge (x >= 0).
 2. A first frequency from the spectrum of the part of the ring that still
-   swings more than 10 % of its largest swing (Hann window, 8x zero padding, peak
+   swings more than 10 % of its largest swing (no taper, 8x zero padding, peak
    refined by a parabola through the log magnitudes), then least squares
    (``scipy.optimize.least_squares``).
 3. The first lobe (the overshoot right after the edge) is shaped by the
    switching transition itself and often does not belong to the free ring.
    The fit is made twice, from the first lobe's peak and from the next
-   extremum half a period later; the earlier start is kept only when its fit
+   extremum half a period later; the earlier start is kept only when both
+   fits agree (omega within 0.3 %, alpha within 3 %) and the earlier one
    describes the later window as well as the later fit does (residual within
-   1.5x). The window runs until the envelope sinks to 3x the residual noise,
+   1.1x). The window runs until the envelope sinks to 3x the residual noise,
    at most 40 periods, before the next edge.
 4. A second mode is kept when it removes more than half of the residual
-   power; the reported ring is the mode with the larger amplitude at the
-   window's start.
+   power; the reported ring is the mode with the more energy in the window
+   (A^2 (1 - exp(-2 alpha T)) / (2 alpha) over the window length T).
 
 A ring that cannot be measured gets a reason instead of numbers (too few
 samples after the edge or per ring period, no overshoot, no ring above the
@@ -80,8 +81,9 @@ class RingFit:
     """A fitted ring: the reported ``mode``, an optional ``second`` mode, the
     fit window ``start``..``stop`` (s), the residual ``noise`` (V rms),
     ``extrema`` (half periods whose envelope stands above 3x the noise,
-    counting the first lobe), ``samples_per_period`` and whether the first
-    lobe was left out of the fit (``first_lobe_skipped``)."""
+    counting the first lobe), ``samples_per_period``, whether the first
+    lobe was left out of the fit (``first_lobe_skipped``) and the ``line``
+    (c in V, s in V/s) the modes ride on."""
 
     mode: DampedSine
     second: DampedSine | None
@@ -91,16 +93,27 @@ class RingFit:
     extrema: int
     samples_per_period: float
     first_lobe_skipped: bool
+    line: tuple[float, float] = (0.0, 0.0)
+
+    def deviation(self, t: np.ndarray) -> np.ndarray:
+        """The fitted waveform minus the final level (V, signed as the step) at
+        times ``t`` (s) within the window: the modes plus the line."""
+        tau = np.asarray(t) - self.start
+        out = self.mode(t) + self.line[0] + self.line[1] * tau
+        if self.second is not None:
+            out = out + self.second(t)
+        return out
 
 
 def spectral_peak(x: np.ndarray, dt: float, f_min: float = 0.0) -> float:
-    """Frequency (Hz) of the largest peak of |FFT| of ``x`` (line removed, Hann
-    window, zero padded 8x), refined by a parabola through the log magnitudes
-    of the three bins around it; bins below ``f_min`` are ignored."""
+    """Frequency (Hz) of the largest peak of |FFT| of ``x`` (line removed, zero
+    padded 8x; no taper: a decaying ring is strongest at the window's start,
+    which a taper would suppress), refined by a parabola through the log
+    magnitudes of the three bins around it; bins below ``f_min`` are ignored."""
     n = x.size
     tt = np.arange(n)
     slope, icpt = np.polyfit(tt, x, 1)
-    y = (x - (icpt + slope * tt)) * np.hanning(n)
+    y = x - (icpt + slope * tt)
     nfft = 1 << int(np.ceil(np.log2(8 * n)))
     mag = np.abs(np.fft.rfft(y, nfft))
     freqs = np.fft.rfftfreq(nfft, dt)
@@ -127,20 +140,24 @@ def _solve(tt: np.ndarray, xx: np.ndarray, p: np.ndarray) -> tuple[np.ndarray, n
     return b, coef
 
 
-def _fit(tt: np.ndarray, xx: np.ndarray, p0: np.ndarray, w_ref: float) -> tuple[np.ndarray, float]:
-    """Least squares of the model for starting parameters ``p0`` (alpha,
-    omega pairs in 1/s, rad/s), scaled by ``w_ref``. Returns the parameters
-    and the residual rms."""
+def _fit(tt: np.ndarray, xx: np.ndarray, p0: np.ndarray, w0: float) -> tuple[np.ndarray, float]:
+    """Least squares of the model from the starting parameters ``p0`` (alpha,
+    omega pairs in 1/s, rad/s); each mode is scaled by its own starting omega
+    and kept within 0.5x..2x of it (and below the limit of
+    MIN_SAMPLES_PER_PERIOD). Returns the parameters and the residual rms."""
     from scipy.optimize import least_squares
 
-    q0 = p0 / w_ref
+    del w0  # each mode is scaled by its own start
+    ref = np.repeat(p0[1::2], 2)
+    q0 = p0 / ref
     modes = p0.size // 2
-    lo = np.tile([0.0, 0.3], modes)
-    hi = np.tile([3.0, 4.0], modes)
+    top = 2 * np.pi / (MIN_SAMPLES_PER_PERIOD * float(tt[1] - tt[0])) / p0[1::2]
+    lo = np.tile([0.0, 0.5], modes)
+    hi = np.column_stack([np.full(modes, 3.0), np.clip(top, 0.5 + 1e-6, 2.0)]).ravel()
     q0 = np.clip(q0, lo + 1e-9, hi - 1e-9)
 
     def residual(q: np.ndarray) -> np.ndarray:
-        b, coef = _solve(tt, xx, q * w_ref)
+        b, coef = _solve(tt, xx, q * ref)
         return b @ coef - xx
 
     try:
@@ -148,7 +165,7 @@ def _fit(tt: np.ndarray, xx: np.ndarray, p0: np.ndarray, w_ref: float) -> tuple[
     except (ValueError, np.linalg.LinAlgError):
         q = q0
     r = residual(q)
-    return q * w_ref, float(np.sqrt(np.mean(r * r)))
+    return q * ref, float(np.sqrt(np.mean(r * r)))
 
 
 def _modes(tt: np.ndarray, xx: np.ndarray, p: np.ndarray, t0: float) -> list[DampedSine]:
@@ -179,9 +196,10 @@ def fit_ring(t: np.ndarray, x: np.ndarray, *, scale: float,
     if n < 16:
         return f"only {n} samples between the edge and the end of its window (16 needed)"
     dt = float(t[1] - t[0])
-    above = np.flatnonzero(x > 1e-9 * scale)
-    if above.size == 0:
-        return "no overshoot: the waveform approaches its final level without passing it"
+    above = np.flatnonzero(x >= 0)
+    if above.size == 0 or float(x[above[0]:].max()) < 2e-3 * scale:
+        return ("no overshoot: the waveform does not pass its final level by more than "
+                "0.2 % of the step")
     z0 = int(above[0])
     if n - z0 < 16:
         return "the waveform reaches its final level too close to the end of the window"
@@ -205,6 +223,9 @@ def fit_ring(t: np.ndarray, x: np.ndarray, *, scale: float,
     # the first lobe's peak: the largest x within 3/4 period of reaching the final level
     j = min(n, z0 + max(2, int(0.75 * period / dt)))
     p0i = z0 + int(np.argmax(x[z0:j]))
+    if t[-1] - t[p0i] < 2 * period:
+        return (f"window too short: {(t[-1] - t[p0i]) * 1e9:.3g} ns after the first lobe's "
+                f"peak for a ring of about {f0 / 1e6:.4g} MHz (2 periods needed)")
     w0 = 2 * np.pi * f0
     starts = [p0i]
     p1 = int(np.searchsorted(t, t[p0i] + 0.5 * period))
@@ -213,52 +234,48 @@ def fit_ring(t: np.ndarray, x: np.ndarray, *, scale: float,
     fits = []
     for i in starts:
         stop = min(float(t[-1]), float(t[i]) + 40 * period)
-        f_est = spectral_peak(x[i : z0 + n_spec], dt, f_min=0.5 * f0) if z0 + n_spec - i > 32 else f0
+        f_est = (spectral_peak(x[i : z0 + n_spec], dt, f_min=0.5 * f0)
+                 if z0 + n_spec - i > 32 else f0)
         w_start = 2 * np.pi * f_est if 0.7 * f0 < f_est < 1.4 * f0 else w0
-        alpha0 = _decay_guess(t[i:], x[i:], period)
-        for _ in range(2):
-            idx, a, b = _window(t, i, stop, max_samples)
-            tt, xx = t[idx] - t[i], x[idx]
-            p, rms = _fit(tt, xx, np.array([alpha0, w_start]), w0)
-            alpha0, w_start = float(p[0]), float(p[1])
-            (m,) = _modes(tt, xx, p, float(t[i]))
-            # shrink the window to where the envelope meets the noise
-            if m.alpha > 0 and m.amplitude > 3 * rms > 0:
-                t_env = float(np.log(m.amplitude / (3 * rms)) / m.alpha)
-                new_stop = min(stop, float(t[i]) + max(1.2 * t_env, 3 * period))
-                if new_stop < 0.9 * (stop - t[i]) + t[i]:
-                    stop = new_stop
-                    continue
-            break
-        fits.append((i, stop, p, rms))
+        p0 = np.array([_decay_guess(t[i:], x[i:], period), w_start])
+        fits.append((i, *_fit_from(t, x, i, stop, p0, w0, period, max_samples)))
     chosen = fits[0]
     skipped = False
     if len(fits) == 2:
-        i1, stop1, p1v, rms1 = fits[1]
+        i1, stop1, _, rms1 = fits[1]
         idx, _, _ = _window(t, i1, stop1, max_samples)
         t_first = float(t[fits[0][0]])
         b, coef = _solve(t[idx] - t_first, x[idx], fits[0][2])
         r = b @ coef - x[idx]
         # the earlier fit, judged on the later window with its own linear part
         rms0 = float(np.sqrt(np.mean(r * r)))
-        if rms0 > 1.5 * rms1 + 1e-12 * scale:
+        a0, w0a = fits[0][2][:2]
+        a1, w1a = fits[1][2][:2]
+        agree = abs(w0a - w1a) <= 0.003 * w1a and abs(a0 - a1) <= 0.03 * max(a1, 1e-3 * w1a)
+        if not agree or rms0 > 1.1 * rms1 + 1e-12 * scale:
             chosen, skipped = fits[1], True
     i, stop, p, rms = chosen
     idx, _, _ = _window(t, i, stop, max_samples)
     tt, xx = t[idx] - t[i], x[idx]
     modes = _modes(tt, xx, p, float(t[i]))
-    # a second mode: started from the residual's spectral peak
-    b, coef = _solve(tt, xx, p)
-    resid = xx - b @ coef
-    if tt.size > 64:
-        dts = float(tt[1] - tt[0])
-        f2 = spectral_peak(resid, dts)
-        if f2 > 0 and abs(f2 - modes[0].frequency) > 0.05 * modes[0].frequency and f2 * dts < 0.4:
-            p2 = np.array([p[0], p[1], p[0], 2 * np.pi * f2])
-            q, rms2 = _fit(tt, xx, p2, w0)
-            if rms2 < np.sqrt(0.5) * rms:
-                modes, rms = _modes(tt, xx, q, float(t[i])), rms2
-    modes.sort(key=lambda m: -m.amplitude)
+    _, coef = _solve(tt, xx, p)
+    line = (float(coef[-2]), float(coef[-1]))
+    # the reported ring: the mode with the most energy in the window (a heavily
+    # damped mode that only shapes the start of the window has little)
+    length = float(stop - t[i])
+
+    def energy(m: DampedSine) -> float:
+        return m.amplitude**2 * (length if m.alpha * length < 1e-6 else
+                                 (1 - np.exp(-2 * m.alpha * length)) / (2 * m.alpha))
+
+    # a mode larger than the swing, or damped beyond zeta = 0.5, shapes the
+    # window but is no ring
+    swing = float(np.abs(xx).max())
+    rings = [m for m in modes if m.amplitude <= 3 * swing and m.damping_ratio < 0.5]
+    if not rings:
+        return (f"the fit found no ring: a mode of {modes[0].amplitude:.3g} V, damping ratio "
+                f"{modes[0].damping_ratio:.2f}, for a waveform that swings {swing:.3g} V")
+    modes = sorted(rings, key=lambda m: -energy(m))
     mode = modes[0]
     if not mode.amplitude > max(3 * rms, 2e-3 * scale):
         return (f"no ring above the noise: fitted amplitude {mode.amplitude:.3g} V against "
@@ -273,8 +290,41 @@ def fit_ring(t: np.ndarray, x: np.ndarray, *, scale: float,
     if extrema < 2:
         return "no ring above the noise: fewer than two extrema stand above 3x the noise"
     return RingFit(mode=mode, second=modes[1] if len(modes) > 1 else None, start=float(t[i]),
-                   stop=float(stop), noise=rms, extrema=extrema,
+                   stop=float(stop), noise=rms, extrema=extrema, line=line,
                    samples_per_period=2 * np.pi / (mode.omega * dt), first_lobe_skipped=skipped)
+
+
+def _fit_from(t: np.ndarray, x: np.ndarray, i: int, stop: float, p0: np.ndarray, w0: float,
+              period: float, max_samples: int) -> tuple[float, np.ndarray, float]:
+    """One mode, then a second one when it removes more than half of the
+    residual power, on the window from sample ``i`` to ``stop`` (s); then the
+    window is shrunk to where the slowest envelope meets 3x the noise (at least
+    3 periods) and the fit repeated. Returns (stop, parameters, residual rms)."""
+    p = p0
+    for attempt in range(2):
+        idx, _, _ = _window(t, i, stop, max_samples)
+        tt, xx = t[idx] - t[i], x[idx]
+        p, rms = _fit(tt, xx, p[:2], w0)
+        if tt.size > 64:
+            b, coef = _solve(tt, xx, p)
+            f1 = p[1] / (2 * np.pi)
+            dts = float(tt[1] - tt[0])
+            f2 = spectral_peak(xx - b @ coef, dts)
+            if f2 > 0 and abs(f2 - f1) > 0.05 * f1 and f2 * dts < 1 / MIN_SAMPLES_PER_PERIOD:
+                q, rms2 = _fit(tt, xx, np.array([p[0], p[1], p[0], 2 * np.pi * f2]), w0)
+                if rms2 < np.sqrt(0.5) * rms:
+                    p, rms = q, rms2
+        if attempt == 1 or rms <= 0:
+            break
+        t_env = 0.0
+        for m in _modes(tt, xx, p, float(t[i])):
+            if m.amplitude > 3 * rms:
+                t_env = max(t_env, float(np.log(m.amplitude / (3 * rms)) / max(m.alpha, 1e-30)))
+        new_stop = min(stop, float(t[i]) + max(1.2 * t_env, 3 * period))
+        if new_stop > t[i] + 0.9 * (stop - t[i]):
+            break
+        stop = new_stop
+    return stop, p, rms
 
 
 def _decay_guess(t: np.ndarray, x: np.ndarray, period: float) -> float:

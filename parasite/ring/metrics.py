@@ -16,9 +16,11 @@ Definitions (SI units; docs/ring.md says the same for users):
   ed., 1998, section 2.6 (logarithmic decrement) -- cited from memory.
 * ring amplitude (V): the fitted ring's amplitude at the start of its fit
   window (after the first lobe when that was left out).
-* settling time: from the edge's 50 % crossing until the last sample outside
-  final level +- band |step| (band 5 % by default). Read on the samples as
-  they are: noise larger than the band means "not settled".
+* settling time: from the edge's 50 % crossing until the waveform last
+  leaves final level +- band |step| (band 5 % by default). Read on the
+  samples as they are (noise larger than the band means "not settled") and,
+  where a ring was fitted, also on the fitted ring between the samples, so
+  that a ring sampled a few times per period is not settled early.
 
 Where a number cannot be measured it is ``None`` and a reason says why.
 """
@@ -198,6 +200,13 @@ def edge_metrics(
                            f"its window ({(ts[-1] - edge.time) * 1e9:.4g} ns after the edge)")
     else:
         settling = float(ts[outside[-1] + 1] - edge.time)
+        if ring is not None:
+            # between the samples: a ring sampled a few times per period has its
+            # peaks between them, so the fitted ring is read on a fine grid too
+            fine = _fine_grid(ring.start, ring.stop, float(ts[1] - ts[0]) / 16)
+            out_fit = np.flatnonzero(np.abs(ring.deviation(fine)) > band_v)
+            if out_fit.size:
+                settling = max(settling, float(fine[out_fit[-1]] - edge.time))
     return RingMetrics(
         edge_time=edge.time,
         direction=d,
@@ -219,3 +228,9 @@ def edge_metrics(
         settling_reason=settling_reason,
         fit=ring,
     )
+
+
+def _fine_grid(start: float, stop: float, step: float, max_points: int = 400_000) -> np.ndarray:
+    """An even grid from ``start`` to ``stop`` (s), ``step`` apart or coarser."""
+    n = int(min(max_points, max(2, (stop - start) / step + 1)))
+    return np.linspace(start, stop, n)
