@@ -38,6 +38,11 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
               help="A [[probe]] of the routes file: its reading (the voltage across the "
                    "instrument's input at the end of its leads) is the simulated waveform, "
                    "instead of the voltage at NODE.")
+@click.option("--edge", "edge_rule", default="order", show_default=True,
+              help="Which simulated edge each measured edge is compared with: 'order' (the "
+                   "first measured rising edge with the first simulated rising edge, and so "
+                   "on), 'last' (the last simulated edge of the same direction), or a number N "
+                   "(the first measured edge with simulated edge N, then in order).")
 @click.option("--all-edges", is_flag=True, help="Print every simulated edge, not the last of "
               "each direction.")
 @click.option("--timeout", type=click.FloatRange(min=1.0), default=600.0, show_default=True,
@@ -48,7 +53,8 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @reports_input_errors
 def ring(netlist: str, routes: str, node: str, measured: str | None, channel: str | None,
          plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
-         loop_name: str | None, probe: str | None, all_edges: bool, timeout: float,
+         loop_name: str | None, probe: str | None, edge_rule: str, all_edges: bool,
+         timeout: float,
          min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
     """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
     measure each switching edge (ring frequency, damping ratio from the
@@ -64,6 +70,12 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, channel: st
     from parasite.ring.analyse import analyse_ring
     from parasite.ring.report import format_ring_text, ring_json
 
+    rule: str | int = edge_rule.strip().lower()
+    if rule not in ("order", "last"):
+        if not str(rule).isdigit() or int(rule) < 1:
+            raise click.BadParameter(f"{edge_rule!r}: give 'order', 'last' or an edge number "
+                                     "(1, 2, ...)", param_hint="--edge")
+        rule = int(rule)
     inputs = [netlist, routes, measured]
     check_output_path(output, inputs)
     if plot_path is not None:
@@ -80,6 +92,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, channel: st
             netlist, routes, node, measured_path=measured, channel=channel, band=band,
             capacitance=capacitance, loop=loop_name, min_coupling=min_coupling,
             frequency=frequency, timeout=timeout, progress=progress, probe=probe,
+            edge_rule=rule,
         )
     finally:
         if progress is not None:

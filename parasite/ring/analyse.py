@@ -50,6 +50,8 @@ class RingResult:
     augmented: Waveform | None
     measured: Waveform | None
     metrics: dict[str, list[RingMetrics]] = field(default_factory=dict)
+    pairs: list[tuple[int, int | None, int | None]] = field(default_factory=list)
+    """(measured edge, ideal edge, augmented edge) indices (0-based) compared."""
 
 
 def tran_stop(deck: bytes) -> float | None:
@@ -106,6 +108,40 @@ def _last(edges: list[RingMetrics], direction: int) -> RingMetrics | None:
     return same[-1] if same else None
 
 
+def pair_edges(measured: list[RingMetrics], simulated: list[RingMetrics],
+               rule: str | int = "order") -> list[int | None]:
+    """For each measured edge, the index of the simulated edge it is compared
+    with (or None). ``rule``: ``"order"`` pairs the k-th measured edge of a
+    direction with the k-th simulated edge of that direction (first with
+    first); ``"last"`` pairs every measured edge with the last simulated edge
+    of its direction (a steady state); an integer N pairs the first measured
+    edge with simulated edge N (1-based) and each next measured edge with the
+    next simulated edge of its direction after that."""
+    out: list[int | None] = []
+    if rule == "last":
+        for m in measured:
+            same = [j for j, s in enumerate(simulated) if s.direction == m.direction]
+            out.append(same[-1] if same else None)
+        return out
+    if rule == "order":
+        seen: dict[int, int] = {}
+        for m in measured:
+            k = seen.get(m.direction, 0)
+            seen[m.direction] = k + 1
+            same = [j for j, s in enumerate(simulated) if s.direction == m.direction]
+            out.append(same[k] if k < len(same) else None)
+        return out
+    j = int(rule) - 1
+    for i, m in enumerate(measured):
+        if i > 0:
+            j += 1
+            while j < len(simulated) and simulated[j].direction != m.direction:
+                j += 1
+        ok = 0 <= j < len(simulated) and simulated[j].direction == m.direction
+        out.append(j if ok else None)
+    return out
+
+
 def _plateau_time(edges: list[RingMetrics], ref: RingMetrics, t_end: float) -> float:
     later = [m.edge_time for m in edges if m.edge_time > ref.edge_time]
     nxt = later[0] if later else t_end
@@ -145,6 +181,7 @@ def analyse_ring(
     timeout: float = 600.0,
     progress: Callable[[str, float], None] | None = None,
     probe: str | None = None,
+    edge_rule: str | int = "order",
 ) -> RingResult:
     """Simulate NETLIST as it is and with the copper of ROUTES (``routes_path``
     None: the original only), measure the ring at ``node``, and compare with a
@@ -156,7 +193,8 @@ def analyse_ring(
     the fitted inductance with (default: its first loop). ``probe`` names a
     ``[[probe]]`` of the routes file whose reading (the voltage across its
     instrument input) is the augmented simulation's waveform instead of the
-    node's voltage.
+    node's voltage. ``edge_rule`` says which simulated edge each measured
+    edge is compared with (:func:`pair_edges`).
     """
     from parasite.netlist import read_netlist
     from parasite.spice import run_ngspice
@@ -296,6 +334,7 @@ def analyse_ring(
         return entry
 
     measured_wave: Waveform | None = None
+    pairs: list[tuple[int, int | None, int | None]] = []
     if measured_path is not None and trace is not None:
         meas_edges = ring_metrics(trace.time, values, band=band,
                                   name=f"{measured_path}, channel {label}")
@@ -309,18 +348,25 @@ def analyse_ring(
         }
         report["warnings"].extend(f"{measured_path}: {w}" for w in trace.warnings)
         shift: float | None = None
+        pair_i = pair_edges(meas_edges, ideal_edges, edge_rule)
+        pair_a = pair_edges(meas_edges, aug_edges, edge_rule)
+        report["pairing"] = edge_rule if isinstance(edge_rule, str) else f"from edge {edge_rule}"
         for i, m in enumerate(meas_edges):
-            ref_aug = _last(aug_edges, m.direction)
-            ref_ideal = _last(ideal_edges, m.direction)
+            ref_ideal = None if pair_i[i] is None else ideal_edges[pair_i[i]]
+            ref_aug = None if pair_a[i] is None else aug_edges[pair_a[i]]
             ref = ref_aug if ref_aug is not None else ref_ideal
             offset = None if ref is None else ref.edge_time - m.edge_time
             if shift is None and offset is not None:
                 shift = offset
-            report["comparison"].append(_compare(i, m, ref_ideal, ref_aug, offset))
+            comp = _compare(i, m, ref_ideal, ref_aug, offset)
+            comp["ideal_edge"] = None if pair_i[i] is None else pair_i[i] + 1
+            comp["augmented_edge"] = None if pair_a[i] is None else pair_a[i] + 1
+            report["comparison"].append(comp)
+            pairs.append((i, pair_i[i], pair_a[i]))
             entry = fit_entry(f"measured edge {i + 1}", m)
             if entry is not None:
                 report["fit"].append(entry)
-        measured_wave = Waveform(f"measured ({label})", trace.time, values,
+        measured_wave = Waveform(f"{Path(measured_path).name}, column {label}", trace.time, values,
                                  shift=0.0 if shift is None else shift)
     for direction in (1, -1):
         last = _last(aug_edges, direction)
@@ -334,11 +380,11 @@ def analyse_ring(
         if entry is not None:
             report["fit"].append(entry)
     return RingResult(report=report, ideal=ideal_wave, augmented=augmented_wave,
-                      measured=measured_wave, metrics=metrics)
+                      measured=measured_wave, metrics=metrics, pairs=pairs)
 
 
 METRIC_KEYS = ("frequency", "damping_ratio", "overshoot", "overshoot_ratio", "settling_time",
-               "step")
+               "ring_amplitude", "step")
 
 
 def _compare(
