@@ -108,6 +108,58 @@ def _last(edges: list[RingMetrics], direction: int) -> RingMetrics | None:
     return same[-1] if same else None
 
 
+def resolve_node(netlist: Any, spec: str) -> tuple[str, tuple[str, str] | None]:
+    """The node to read: a node name, or ``ELEMENT:TERMINAL`` (``X2:d``,
+    ``M2:2``) for the node on that terminal of a top-level element. Returns
+    the node and (element, terminal) when a terminal was named. Raises
+    :class:`~parasite.errors.NetlistError` (file and line) for an unknown
+    element or terminal."""
+    spec = spec.strip()
+    if ":" not in spec:
+        return spec.lower(), None
+    element, term = (p.strip() for p in spec.split(":", 1))
+    node = netlist.terminal_node(element, term)
+    return node, (netlist.element(element).name, term.lower())
+
+
+def with_save(deck: bytes, node: str) -> bytes:
+    """``deck`` with ``.save v(node)`` added when it has ``.save`` cards (which
+    would leave the node out); unchanged when it has none (every node is saved)."""
+    text = deck.decode("latin-1")
+    if not re.search(r"^[ \t]*\.save\b", text, re.IGNORECASE | re.MULTILINE):
+        return deck
+    ends = list(re.finditer(r"^[ \t]*\.end[ \t]*\r?$", text, re.IGNORECASE | re.MULTILINE))
+    line = f".save v({node})\n"
+    if not ends:
+        return (text.rstrip("\n") + "\n" + line).encode("latin-1")
+    at = ends[-1].start()
+    return (text[:at] + line + text[at:]).encode("latin-1")
+
+
+def _augmented_point(netlist: Any, aug_bytes: bytes, node: str,
+                     terminal: tuple[str, str] | None, base_dir: Path) -> tuple[str, str]:
+    """The augmented netlist's node for the point read, and a sentence that
+    says which point of the copper it is."""
+    from parasite.netlist import parse_netlist
+
+    aug = parse_netlist(aug_bytes, "<augmented>", base_dir)
+    if terminal is not None:
+        aug_node = aug.terminal_node(terminal[0], terminal[1])
+        return aug_node, (f"terminal {terminal[1]} of {terminal[0]} (node {node} as written; "
+                          f"node {aug_node} at the end of the copper in the augmented netlist)")
+    original = {e.key for e in netlist.elements}
+    pins = []
+    for e in aug.elements:
+        if e.key not in original:
+            continue
+        pins += [f"{e.name}:{tn}" for tn, n in zip(e.terminal_names, e.nodes, strict=False)
+                 if n == node]
+    if not pins:
+        return node, f"node {node}"
+    return node, (f"node {node}: with the copper, the point at pin {', '.join(pins)}; name a "
+                  "terminal (--node ELEMENT:TERMINAL) to read another pin of the net")
+
+
 def pair_edges(measured: list[RingMetrics], simulated: list[RingMetrics],
                rule: str | int = "order") -> list[int | None]:
     """For each measured edge, the index of the simulated edge it is compared
@@ -218,7 +270,7 @@ def analyse_ring(
             "switching edges at the node",
             file=netlist_path,
         )
-    node_key = node.strip().lower()
+    node_key, terminal = resolve_node(netlist, node)
     trace = None
     if measured_path is not None:  # read it first: a bad file fails before the simulations
         from parasite.ring.scope_csv import read_scope_csv
@@ -246,6 +298,9 @@ def analyse_ring(
         "netlist": netlist_path,
         "routes": routes_path,
         "node": node_key,
+        "terminal": None if terminal is None else f"{terminal[0]}:{terminal[1]}",
+        "read_at": (f"terminal {terminal[1]} of {terminal[0]} (node {node_key})"
+                    if terminal is not None else f"node {node_key}"),
         "settling_band_fraction": band,
         "simulations": {"ideal": {"edges": [m.to_dict() for m in ideal_edges],
                                   "warnings": ideal_res.warnings}},
@@ -266,7 +321,11 @@ def analyse_ring(
         aug = augment_files(netlist_path, routes_path, min_coupling=min_coupling,
                             frequency=frequency)
         aug_name = f"{netlist_path} (augmented with {routes_path})"
-        aug_res = run_ngspice(aug.netlist_bytes, base_dir=base_dir, timeout=timeout,
+        aug_node, read_at = _augmented_point(netlist, aug.netlist_bytes, node_key, terminal,
+                                             base_dir)
+        aug_deck = aug.netlist_bytes if probe is not None else with_save(aug.netlist_bytes,
+                                                                          aug_node)
+        aug_res = run_ngspice(aug_deck, base_dir=base_dir, timeout=timeout,
                               name=aug_name, progress=stage("simulating the augmented netlist"))
         if probe is not None:
             from parasite.probes import probe_reading
@@ -274,8 +333,9 @@ def analyse_ring(
             t_a, v_a, probe_entry = probe_reading(aug_res, aug.report, probe, routes_path)
             report["probe"] = {k: probe_entry[k] for k in ("name", "plus", "minus")}
         else:
-            t_a, v_a = _node_wave(aug_res, node_key, aug_name)
-        aug_edges = ring_metrics(t_a, v_a, band=band, name=f"{aug_name}, node {node_key}")
+            t_a, v_a = _node_wave(aug_res, aug_node, aug_name)
+            report["read_at"] = read_at
+        aug_edges = ring_metrics(t_a, v_a, band=band, name=f"{aug_name}, node {aug_node}")
         report["simulations"]["augmented"] = {
             "edges": [m.to_dict() for m in aug_edges],
             "warnings": aug_res.warnings,
