@@ -135,9 +135,15 @@ def ring_metrics(
     for k, edge in enumerate(edges):
         if k + 1 < len(edges):
             nxt = edges[k + 1]
-            # stop before the next transition begins: back off three times the
-            # samples it took from the threshold to 50 %
-            end = nxt.start - 3 * (nxt.index - nxt.start) - 2
+            # stop before the next transition begins: where the waveform last
+            # lay within 5 % of the span of its old level before the next edge
+            # (a slow start, e.g. a Miller plateau, leaves the level early),
+            # then back off three times the samples it took from there to 50 %
+            old = nxt.low if nxt.direction > 0 else nxt.high
+            near = np.flatnonzero(np.abs(v[edge.index : nxt.start + 1] - old)
+                                  <= 0.05 * (nxt.high - nxt.low))
+            start = edge.index + int(near[-1]) if near.size else nxt.start
+            end = start - 3 * (nxt.index - nxt.start) - 2
         else:
             end = len(t) - 1
         if previous_final is None:
