@@ -19,6 +19,10 @@ import numpy as np
 from parasite.errors import MeasurementError, SimulationError
 from parasite.ring.fit import DeviceCapacitance, LoopFit, ring_capacitance, series_rlc_from_ring
 from parasite.ring.metrics import DEFAULT_BAND, RingMetrics, ring_metrics
+from parasite.ring.pairing import pair_edges
+from parasite.ring.points import augmented_point, resolve_node, with_save
+
+__all__ = ["analyse_ring", "pair_edges", "resolve_node", "with_save"]
 
 FORMAT = "parasite-ring/1"
 
@@ -106,92 +110,6 @@ def _voltages_at(result: Any, time: float) -> dict[str, float]:
 def _last(edges: list[RingMetrics], direction: int) -> RingMetrics | None:
     same = [m for m in edges if m.direction == direction]
     return same[-1] if same else None
-
-
-def resolve_node(netlist: Any, spec: str) -> tuple[str, tuple[str, str] | None]:
-    """The node to read: a node name, or ``ELEMENT:TERMINAL`` (``X2:d``,
-    ``M2:2``) for the node on that terminal of a top-level element. Returns
-    the node and (element, terminal) when a terminal was named. Raises
-    :class:`~parasite.errors.NetlistError` (file and line) for an unknown
-    element or terminal."""
-    spec = spec.strip()
-    if ":" not in spec:
-        return spec.lower(), None
-    element, term = (p.strip() for p in spec.split(":", 1))
-    node = netlist.terminal_node(element, term)
-    return node, (netlist.element(element).name, term.lower())
-
-
-def with_save(deck: bytes, node: str) -> bytes:
-    """``deck`` with ``.save v(node)`` added when it has ``.save`` cards (which
-    would leave the node out); unchanged when it has none (every node is saved)."""
-    text = deck.decode("latin-1")
-    if not re.search(r"^[ \t]*\.save\b", text, re.IGNORECASE | re.MULTILINE):
-        return deck
-    ends = list(re.finditer(r"^[ \t]*\.end[ \t]*\r?$", text, re.IGNORECASE | re.MULTILINE))
-    line = f".save v({node})\n"
-    if not ends:
-        return (text.rstrip("\n") + "\n" + line).encode("latin-1")
-    at = ends[-1].start()
-    return (text[:at] + line + text[at:]).encode("latin-1")
-
-
-def _augmented_point(netlist: Any, aug_bytes: bytes, node: str,
-                     terminal: tuple[str, str] | None, base_dir: Path) -> tuple[str, str]:
-    """The augmented netlist's node for the point read, and a sentence that
-    says which point of the copper it is."""
-    from parasite.netlist import parse_netlist
-
-    aug = parse_netlist(aug_bytes, "<augmented>", base_dir)
-    if terminal is not None:
-        aug_node = aug.terminal_node(terminal[0], terminal[1])
-        return aug_node, (f"terminal {terminal[1]} of {terminal[0]} (node {node} as written; "
-                          f"node {aug_node} at the end of the copper in the augmented netlist)")
-    original = {e.key for e in netlist.elements}
-    pins = []
-    for e in aug.elements:
-        if e.key not in original:
-            continue
-        pins += [f"{e.name}:{tn}" for tn, n in zip(e.terminal_names, e.nodes, strict=False)
-                 if n == node]
-    if not pins:
-        return node, f"node {node}"
-    return node, (f"node {node}: with the copper, the point at pin {', '.join(pins)}; name a "
-                  "terminal (--node ELEMENT:TERMINAL) to read another pin of the net")
-
-
-def pair_edges(measured: list[RingMetrics], simulated: list[RingMetrics],
-               rule: str | int = "order") -> list[int | None]:
-    """For each measured edge, the index of the simulated edge it is compared
-    with (or None). ``rule``: ``"order"`` pairs the k-th measured edge of a
-    direction with the k-th simulated edge of that direction (first with
-    first); ``"last"`` pairs every measured edge with the last simulated edge
-    of its direction (a steady state); an integer N pairs the first measured
-    edge with simulated edge N (1-based) and each next measured edge with the
-    next simulated edge of its direction after that."""
-    out: list[int | None] = []
-    if rule == "last":
-        for m in measured:
-            same = [j for j, s in enumerate(simulated) if s.direction == m.direction]
-            out.append(same[-1] if same else None)
-        return out
-    if rule == "order":
-        seen: dict[int, int] = {}
-        for m in measured:
-            k = seen.get(m.direction, 0)
-            seen[m.direction] = k + 1
-            same = [j for j, s in enumerate(simulated) if s.direction == m.direction]
-            out.append(same[k] if k < len(same) else None)
-        return out
-    j = int(rule) - 1
-    for i, m in enumerate(measured):
-        if i > 0:
-            j += 1
-            while j < len(simulated) and simulated[j].direction != m.direction:
-                j += 1
-        ok = 0 <= j < len(simulated) and simulated[j].direction == m.direction
-        out.append(j if ok else None)
-    return out
 
 
 def _plateau_time(edges: list[RingMetrics], ref: RingMetrics, t_end: float) -> float:
@@ -321,7 +239,7 @@ def analyse_ring(
         aug = augment_files(netlist_path, routes_path, min_coupling=min_coupling,
                             frequency=frequency)
         aug_name = f"{netlist_path} (augmented with {routes_path})"
-        aug_node, read_at = _augmented_point(netlist, aug.netlist_bytes, node_key, terminal,
+        aug_node, read_at = augmented_point(netlist, aug.netlist_bytes, node_key, terminal,
                                              base_dir)
         aug_deck = aug.netlist_bytes if probe is not None else with_save(aug.netlist_bytes,
                                                                           aug_node)
