@@ -14,7 +14,9 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @click.command()
 @click.argument("netlist", type=click.Path(dir_okay=False))
 @click.argument("routes", type=click.Path(dir_okay=False))
-@click.option("--node", required=True, help="The node whose edges ring (e.g. the switch node).")
+@click.option("--node", required=True,
+              help="The node whose edges ring (e.g. sw), or one terminal of an element, "
+                   "ELEMENT:TERMINAL (e.g. X2:d), to read that pin's end of the copper.")
 @click.option("--measured", "measured", type=click.Path(dir_okay=False), default=None,
               help="A measured waveform of the node: an oscilloscope export (CSV and the like).")
 @click.option("--channel", default=None,
@@ -57,8 +59,9 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, channel: st
          timeout: float,
          min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
     """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
-    measure each switching edge (ring frequency, damping ratio from the
-    logarithmic decrement, peak overshoot, settling time), and compare with a
+    measure each switching edge (ring frequency and damping ratio from a damped
+    sinusoid fitted after the first lobe, peak overshoot, settling time into a
+    band around the final level; docs/ring.md defines each), and compare with a
     measured waveform. From the measured ring, the series loop inductance and
     resistance that would produce it, given the capacitance that rings with it.
 

@@ -17,8 +17,9 @@ amplitudes, phases, c and s are solved linearly for each trial alpha, omega):
 1. The ring starts where the waveform first reaches its final level after the
    edge (x >= 0).
 2. A first frequency from the spectrum of the part of the ring that still
-   swings more than 10 % of its largest swing (no taper, 8x zero padding, peak
-   refined by a parabola through the log magnitudes), then least squares
+   swings more than 10 % of its largest swing (no taper, 8x zero padding,
+   peak refined by a parabola through the log magnitudes; it must stand 5x
+   above the median of the spectrum away from it), then least squares
    (``scipy.optimize.least_squares``).
 3. The first lobe (the overshoot right after the edge) is shaped by the
    switching transition itself and often does not belong to the free ring.
@@ -103,6 +104,30 @@ class RingFit:
         if self.second is not None:
             out = out + self.second(t)
         return out
+
+
+MIN_PROMINENCE = 5.0
+"""The spectral peak of a ring must stand this many times above the median of
+the spectrum; white noise alone rarely reaches 4 (its largest of ~10^4 bins
+of Rayleigh-distributed magnitudes is about 3.7 sigma against a median of
+1.18 sigma: common practice, from the distribution)."""
+
+
+def prominence(x: np.ndarray, dt: float, f: float) -> float:
+    """|FFT| of ``x`` (line removed, no padding) at the bin nearest ``f`` (Hz)
+    over the median |FFT| of the bins more than 20 % away from ``f``."""
+    n = x.size
+    tt = np.arange(n)
+    slope, icpt = np.polyfit(tt, x, 1)
+    mag = np.abs(np.fft.rfft(x - (icpt + slope * tt)))[1:]
+    if mag.size < 4:
+        return 0.0
+    k = min(max(int(round(f * n * dt)) - 1, 0), mag.size - 1)
+    peak = float(mag[max(k - 1, 0) : k + 2].max())
+    freqs = (np.arange(mag.size) + 1) / (n * dt)
+    far = mag[np.abs(freqs - f) > 0.2 * f]
+    floor = float(np.median(far)) if far.size >= 4 else float(np.median(mag))
+    return peak / max(floor, 1e-300)
 
 
 def spectral_peak(x: np.ndarray, dt: float, f_min: float = 0.0) -> float:
@@ -211,6 +236,10 @@ def fit_ring(t: np.ndarray, x: np.ndarray, *, scale: float,
     f0 = spectral_peak(x[z0 : z0 + n_spec], dt)
     if f0 <= 0:
         return "no ring: no spectral peak after the edge"
+    prom = prominence(x[z0 : z0 + n_spec], dt, f0)
+    if prom < MIN_PROMINENCE:
+        return (f"no ring above the noise: no spectral peak stands out after the edge "
+                f"(the largest is {prom:.1f}x the median; {MIN_PROMINENCE:g}x needed)")
     spp = 1.0 / (f0 * dt)
     if spp < MIN_SAMPLES_PER_PERIOD:
         return (f"too few samples per ring period ({spp:.1f} at {1e-9 / dt:.3g} GS/s; "

@@ -184,3 +184,17 @@ def test_reasons_are_in_the_json() -> None:
     t, v, _ = waveform(f=250e6, zeta=0.01, amp=4.0, lobe=8.0, spp=2.5)
     d = rising(t, v).to_dict()
     assert d["frequency"] is None and "samples per ring period" in d["ring_reason"]
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_first_order_edges_in_noise_have_no_ring(seed: int) -> None:
+    """An RC edge (tau = 20 ns, 12 V) and an abrupt fall, 0.1 V rms noise,
+    2.5 GS/s: white noise has no spectral peak that stands out (its largest
+    bin is about 3-4x the median, Rayleigh statistics), so no ring is
+    reported and the reason says so."""
+    t = np.arange(0.0, 2e-6, 0.4e-9)
+    v = np.where(t > 0.5e-6, 12.0 * (1 - np.exp(-(t - 0.5e-6) / 20e-9)), 0.0)
+    v = np.where(t > 1.5e-6, 0.0, v) + np.random.default_rng(seed).normal(0, 0.1, t.size)
+    for m in ring_metrics(t, v, resample=False):
+        assert m.frequency is None
+        assert m.ring_reason is not None and "noise" in m.ring_reason
