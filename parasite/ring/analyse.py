@@ -330,17 +330,18 @@ def analyse_ring(
         pair_a = pair_edges(meas_edges, aug_edges, edge_rule)
         report["pairing"] = edge_rule if isinstance(edge_rule, str) else f"from edge {edge_rule}"
         for i, m in enumerate(meas_edges):
-            ref_ideal = None if pair_i[i] is None else ideal_edges[pair_i[i]]
-            ref_aug = None if pair_a[i] is None else aug_edges[pair_a[i]]
+            ji, ja = pair_i[i], pair_a[i]
+            ref_ideal = None if ji is None else ideal_edges[ji]
+            ref_aug = None if ja is None else aug_edges[ja]
             ref = ref_aug if ref_aug is not None else ref_ideal
             offset = None if ref is None else ref.edge_time - m.edge_time
             if shift is None and offset is not None:
                 shift = offset
             comp = _compare(i, m, ref_ideal, ref_aug, offset)
-            comp["ideal_edge"] = None if pair_i[i] is None else pair_i[i] + 1
-            comp["augmented_edge"] = None if pair_a[i] is None else pair_a[i] + 1
+            comp["ideal_edge"] = None if ji is None else ji + 1
+            comp["augmented_edge"] = None if ja is None else ja + 1
             report["comparison"].append(comp)
-            pairs.append((i, pair_i[i], pair_a[i]))
+            pairs.append((i, ji, ja))
             entry = fit_entry(f"measured edge {i + 1}", m)
             if entry is not None:
                 report["fit"].append(entry)
