@@ -82,9 +82,13 @@ def test_demo_text_table(tmp_path: Path) -> None:
     assert code == 0, err
     assert out == ""
     text = out_file.read_text()
-    assert text.startswith("Ringing at node sw (settling band +-5 % of each step)")
+    assert text.startswith("Ringing at node sw\n(read at node sw: with the copper, the point "
+                           "at pin M1:s;")
+    assert "within +-5 % of the step around the final level" in text
     assert re.search(r"^measured\s+1\s+rising\s", text, re.MULTILINE)
-    assert "Measured edge 1 (rising) against the last simulated rising edge" in text
+    # the demo's augmented waveform starts high: its first rising edge is edge 2
+    assert ("Measured edge 1 (rising) against augmented edge 2 and ideal edge 1 "
+            "(pairing: order)") in text
     assert "Caution: Probing a live power stage is hazardous" in text
 
 

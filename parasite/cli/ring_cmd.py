@@ -14,7 +14,9 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @click.command()
 @click.argument("netlist", type=click.Path(dir_okay=False))
 @click.argument("routes", type=click.Path(dir_okay=False))
-@click.option("--node", required=True, help="The node whose edges ring (e.g. the switch node).")
+@click.option("--node", required=True,
+              help="The node whose edges ring (e.g. sw), or one terminal of an element, "
+                   "ELEMENT:TERMINAL (e.g. X2:d), to read that pin's end of the copper.")
 @click.option("--measured", "measured", type=click.Path(dir_okay=False), default=None,
               help="A measured waveform of the node: an oscilloscope export (CSV and the like).")
 @click.option("--time-unit", "time_unit", type=click.Choice(["s", "ms", "us", "ns", "ps"]),
@@ -41,6 +43,11 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
               help="A [[probe]] of the routes file: its reading (the voltage across the "
                    "instrument's input at the end of its leads) is the simulated waveform, "
                    "instead of the voltage at NODE.")
+@click.option("--edge", "edge_rule", default="order", show_default=True,
+              help="Which simulated edge each measured edge is compared with: 'order' (the "
+                   "first measured rising edge with the first simulated rising edge, and so "
+                   "on), 'last' (the last simulated edge of the same direction), or a number N "
+                   "(the first measured edge with simulated edge N, then in order).")
 @click.option("--all-edges", is_flag=True, help="Print every simulated edge, not the last of "
               "each direction.")
 @click.option("--timeout", type=click.FloatRange(min=1.0), default=600.0, show_default=True,
@@ -52,11 +59,13 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: str | None,
          channel: str | None,
          plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
-         loop_name: str | None, probe: str | None, all_edges: bool, timeout: float,
+         loop_name: str | None, probe: str | None, edge_rule: str, all_edges: bool,
+         timeout: float,
          min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
     """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
-    measure each switching edge (ring frequency, damping ratio from the
-    logarithmic decrement, peak overshoot, settling time), and compare with a
+    measure each switching edge (ring frequency and damping ratio from a damped
+    sinusoid fitted after the first lobe, peak overshoot, settling time into a
+    band around the final level; docs/ring.md defines each), and compare with a
     measured waveform. From the measured ring, the series loop inductance and
     resistance that would produce it, given the capacitance that rings with it.
 
@@ -68,6 +77,12 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
     from parasite.ring.analyse import analyse_ring
     from parasite.ring.report import format_ring_text, ring_json
 
+    rule: str | int = edge_rule.strip().lower()
+    if rule not in ("order", "last"):
+        if not str(rule).isdigit() or int(rule) < 1:
+            raise click.BadParameter(f"{edge_rule!r}: give 'order', 'last' or an edge number "
+                                     "(1, 2, ...)", param_hint="--edge")
+        rule = int(rule)
     inputs = [netlist, routes, measured]
     check_output_path(output, inputs)
     if plot_path is not None:
@@ -85,6 +100,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
             channel=channel, band=band,
             capacitance=capacitance, loop=loop_name, min_coupling=min_coupling,
             frequency=frequency, timeout=timeout, progress=progress, probe=probe,
+            edge_rule=rule,
         )
     finally:
         if progress is not None:

@@ -19,6 +19,10 @@ import numpy as np
 from parasite.errors import MeasurementError, SimulationError
 from parasite.ring.fit import DeviceCapacitance, LoopFit, ring_capacitance, series_rlc_from_ring
 from parasite.ring.metrics import DEFAULT_BAND, RingMetrics, ring_metrics
+from parasite.ring.pairing import pair_edges
+from parasite.ring.points import augmented_point, resolve_node, with_save
+
+__all__ = ["analyse_ring", "pair_edges", "resolve_node", "with_save"]
 
 FORMAT = "parasite-ring/1"
 
@@ -50,6 +54,8 @@ class RingResult:
     augmented: Waveform | None
     measured: Waveform | None
     metrics: dict[str, list[RingMetrics]] = field(default_factory=dict)
+    pairs: list[tuple[int, int | None, int | None]] = field(default_factory=list)
+    """(measured edge, ideal edge, augmented edge) indices (0-based) compared."""
 
 
 def tran_stop(deck: bytes) -> float | None:
@@ -146,6 +152,7 @@ def analyse_ring(
     timeout: float = 600.0,
     progress: Callable[[str, float], None] | None = None,
     probe: str | None = None,
+    edge_rule: str | int = "order",
 ) -> RingResult:
     """Simulate NETLIST as it is and with the copper of ROUTES (``routes_path``
     None: the original only), measure the ring at ``node``, and compare with a
@@ -158,7 +165,8 @@ def analyse_ring(
     the fitted inductance with (default: its first loop). ``probe`` names a
     ``[[probe]]`` of the routes file whose reading (the voltage across its
     instrument input) is the augmented simulation's waveform instead of the
-    node's voltage.
+    node's voltage. ``edge_rule`` says which simulated edge each measured
+    edge is compared with (:func:`pair_edges`).
     """
     from parasite.netlist import read_netlist
     from parasite.spice import run_ngspice
@@ -182,7 +190,7 @@ def analyse_ring(
             "switching edges at the node",
             file=netlist_path,
         )
-    node_key = node.strip().lower()
+    node_key, terminal = resolve_node(netlist, node)
     trace = None
     if measured_path is not None:  # read it first: a bad file fails before the simulations
         from parasite.ring.scope_csv import read_scope_csv
@@ -210,6 +218,9 @@ def analyse_ring(
         "netlist": netlist_path,
         "routes": routes_path,
         "node": node_key,
+        "terminal": None if terminal is None else f"{terminal[0]}:{terminal[1]}",
+        "read_at": (f"terminal {terminal[1]} of {terminal[0]} (node {node_key})"
+                    if terminal is not None else f"node {node_key}"),
         "settling_band_fraction": band,
         "simulations": {"ideal": {"edges": [m.to_dict() for m in ideal_edges],
                                   "warnings": ideal_res.warnings}},
@@ -230,7 +241,11 @@ def analyse_ring(
         aug = augment_files(netlist_path, routes_path, min_coupling=min_coupling,
                             frequency=frequency)
         aug_name = f"{netlist_path} (augmented with {routes_path})"
-        aug_res = run_ngspice(aug.netlist_bytes, base_dir=base_dir, timeout=timeout,
+        aug_node, read_at = augmented_point(netlist, aug.netlist_bytes, node_key, terminal,
+                                             base_dir)
+        aug_deck = aug.netlist_bytes if probe is not None else with_save(aug.netlist_bytes,
+                                                                          aug_node)
+        aug_res = run_ngspice(aug_deck, base_dir=base_dir, timeout=timeout,
                               name=aug_name, progress=stage("simulating the augmented netlist"))
         if probe is not None:
             from parasite.probes import probe_reading
@@ -238,8 +253,9 @@ def analyse_ring(
             t_a, v_a, probe_entry = probe_reading(aug_res, aug.report, probe, routes_path)
             report["probe"] = {k: probe_entry[k] for k in ("name", "plus", "minus")}
         else:
-            t_a, v_a = _node_wave(aug_res, node_key, aug_name)
-        aug_edges = ring_metrics(t_a, v_a, band=band, name=f"{aug_name}, node {node_key}")
+            t_a, v_a = _node_wave(aug_res, aug_node, aug_name)
+            report["read_at"] = read_at
+        aug_edges = ring_metrics(t_a, v_a, band=band, name=f"{aug_name}, node {aug_node}")
         report["simulations"]["augmented"] = {
             "edges": [m.to_dict() for m in aug_edges],
             "warnings": aug_res.warnings,
@@ -298,6 +314,7 @@ def analyse_ring(
         return entry
 
     measured_wave: Waveform | None = None
+    pairs: list[tuple[int, int | None, int | None]] = []
     if measured_path is not None and trace is not None:
         meas_edges = ring_metrics(trace.time, values, band=band,
                                   name=f"{measured_path}, channel {label}")
@@ -311,18 +328,26 @@ def analyse_ring(
         }
         report["warnings"].extend(f"{measured_path}: {w}" for w in trace.warnings)
         shift: float | None = None
+        pair_i = pair_edges(meas_edges, ideal_edges, edge_rule)
+        pair_a = pair_edges(meas_edges, aug_edges, edge_rule)
+        report["pairing"] = edge_rule if isinstance(edge_rule, str) else f"from edge {edge_rule}"
         for i, m in enumerate(meas_edges):
-            ref_aug = _last(aug_edges, m.direction)
-            ref_ideal = _last(ideal_edges, m.direction)
+            ji, ja = pair_i[i], pair_a[i]
+            ref_ideal = None if ji is None else ideal_edges[ji]
+            ref_aug = None if ja is None else aug_edges[ja]
             ref = ref_aug if ref_aug is not None else ref_ideal
             offset = None if ref is None else ref.edge_time - m.edge_time
             if shift is None and offset is not None:
                 shift = offset
-            report["comparison"].append(_compare(i, m, ref_ideal, ref_aug, offset))
+            comp = _compare(i, m, ref_ideal, ref_aug, offset)
+            comp["ideal_edge"] = None if ji is None else ji + 1
+            comp["augmented_edge"] = None if ja is None else ja + 1
+            report["comparison"].append(comp)
+            pairs.append((i, ji, ja))
             entry = fit_entry(f"measured edge {i + 1}", m)
             if entry is not None:
                 report["fit"].append(entry)
-        measured_wave = Waveform(f"measured ({label})", trace.time, values,
+        measured_wave = Waveform(f"{Path(measured_path).name}, column {label}", trace.time, values,
                                  shift=0.0 if shift is None else shift)
     for direction in (1, -1):
         last = _last(aug_edges, direction)
@@ -336,11 +361,11 @@ def analyse_ring(
         if entry is not None:
             report["fit"].append(entry)
     return RingResult(report=report, ideal=ideal_wave, augmented=augmented_wave,
-                      measured=measured_wave, metrics=metrics)
+                      measured=measured_wave, metrics=metrics, pairs=pairs)
 
 
 METRIC_KEYS = ("frequency", "damping_ratio", "overshoot", "overshoot_ratio", "settling_time",
-               "step")
+               "ring_amplitude", "step")
 
 
 def _compare(

@@ -192,7 +192,8 @@ def ring_capacitance(
     ``node``, and their capacitance.
 
     Candidates are the MOSFETs (drain or source on ``node``) and diodes (either
-    end on ``node``) of the netlist's top level with a ``.model``. Of these,
+    end on ``node``) with a ``.model``, at top level and inside subcircuit
+    instances (:mod:`parasite.ring.devices`). Of these,
     the ones that block at least half the step after the edge (read from
     ``voltages``: node name -> volts, from the simulation, ground is 0) ring
     with the loop; a device that conducts is shorted by its channel. Each
@@ -200,12 +201,14 @@ def ring_capacitance(
     (:func:`device_capacitance`). Raises
     :class:`~parasite.errors.MeasurementError` when no device qualifies.
     """
+    from parasite.ring.devices import devices
+
     node = node.lower()
     models = netlist.models
     found: list[DeviceCapacitance] = []
     seen: list[str] = []
-    for el in netlist.elements:
-        if el.letter not in ("M", "D") or el.model is None or el.model not in models:
+    for el in devices(netlist):
+        if el.model is None or el.model not in models:
             continue
         if el.letter == "M":
             if len(el.nodes) < 3:
@@ -223,7 +226,7 @@ def ring_capacitance(
                 f"the simulation did not save the voltage of node {missing!r} (a terminal of "
                 f"{el.name}), needed to tell whether it blocks; save it, or give the ring "
                 "capacitance with --capacitance",
-                file=netlist.path,
+                file=el.file,
                 line=el.line,
             )
         blocked = abs(va - vb)

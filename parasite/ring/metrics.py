@@ -1,37 +1,28 @@
 """Ringing metrics of each switching edge: frequency, damping, overshoot, settling.
 
-After an edge, the node settles to its new level through a damped oscillation
+Definitions (SI units; docs/ring.md says the same for users):
 
-    x(tau) = A exp(-alpha tau) cos(omega_d tau + phi) + c,
+* final level: median of the last 40 % of the time between this edge and the
+  next one (or the end of the record); initial level: the previous edge's
+  final level (for the first edge, the median of the last 40 % before it);
+  step = final - initial.
+* peak overshoot: how far the waveform goes past the final level after the
+  edge, in V and as a fraction of |step|.
+* ring frequency f_d (Hz), damping ratio zeta and logarithmic decrement
+  delta = 2 pi zeta / sqrt(1 - zeta^2): from a least-squares fit of damped
+  sinusoids on a slow line to the ring after the edge
+  (:mod:`parasite.ring.damped`, which states the fit window); zeta follows
+  W. T. Thomson, M. D. Dahleh, *Theory of Vibration with Applications*, 5th
+  ed., 1998, section 2.6 (logarithmic decrement) -- cited from memory.
+* ring amplitude (V): the fitted ring's amplitude at the start of its fit
+  window (after the first lobe when that was left out).
+* settling time: from the edge's 50 % crossing until the waveform last
+  leaves final level +- band |step| (band 5 % by default). Read on the
+  samples as they are (noise larger than the band means "not settled") and,
+  where a ring was fitted, also on the fitted ring between the samples, so
+  that a ring sampled a few times per period is not settled early.
 
-the free response of a second-order system (a series RLC loop). From it:
-
-* ring frequency f_d = omega_d / (2 pi), in Hz;
-* logarithmic decrement delta = ln(x_n / x_(n+1)) over one period
-  = alpha T_d = 2 pi alpha / omega_d, and the damping ratio
-  zeta = delta / sqrt(4 pi^2 + delta^2) (equivalently alpha / sqrt(alpha^2 +
-  omega_d^2)). W. T. Thomson, M. D. Dahleh, *Theory of Vibration with
-  Applications*, 5th ed., Prentice Hall, 1998, section 2.6 (logarithmic
-  decrement), eq. 2.6-3 -- cited from memory.
-
-Method: the extrema of the ring (found between zero crossings of x with a
-hysteresis of a few noise deviations) give first estimates: the extrema of a
-damped sinusoid are spaced by exactly half a period, and the ratio of
-successive extrema gives the decrement. A least-squares fit of the model above
-over the ring (variable projection: A, phi and c solved linearly for each
-trial alpha, omega_d) then refines both; with noise this is far steadier than
-reading single peaks.
-
-* peak overshoot: how far the waveform goes past its final level, in V and as
-  a fraction of the step;
-* settling time: from the edge's 50 % crossing until the waveform stays within
-  +-band of the final level (the band is a fraction of the step, stated with
-  the result). Measured on the samples as they are, so noise larger than the
-  band means "not settled".
-
-The final level is the median of the last 40 % of the time before the next
-edge; the initial level is the previous edge's final level (for the first
-edge, the median of the last 40 % before it).
+Where a number cannot be measured it is ``None`` and a reason says why.
 """
 
 from __future__ import annotations
@@ -41,7 +32,10 @@ from typing import Any
 
 import numpy as np
 
-from parasite.ring.edges import Edge, _noise_sigma, find_edges, uniform
+from parasite.ring.damped import DampedSine, RingFit, fit_ring
+from parasite.ring.edges import Edge, find_edges, uniform
+
+__all__ = ["DEFAULT_BAND", "DampedSine", "RingMetrics", "edge_metrics", "ring_metrics"]
 
 DEFAULT_BAND = 0.05
 """Default settling band: +-5 % of the step (common practice)."""
@@ -51,10 +45,12 @@ DEFAULT_BAND = 0.05
 class RingMetrics:
     """Metrics of the ring after one edge. SI units: s, V, Hz.
 
-    ``frequency``, ``damping_ratio`` and ``log_decrement`` are ``None`` when
-    fewer than two extrema of the ring rise above the noise (no ringing seen);
-    ``settling_time`` is ``None`` when the waveform has not settled into the
-    band before the next edge (or the end of the record).
+    ``frequency``, ``damping_ratio``, ``log_decrement`` and
+    ``ring_amplitude`` are ``None`` when the ring cannot be measured, and
+    ``ring_reason`` says why; ``settling_time`` is ``None`` when the waveform
+    has not settled into the band before the next edge (or the end of the
+    record), and ``settling_reason`` says so. ``fit`` is the fitted ring (the
+    window, residual noise, a second mode) when there is one.
     """
 
     edge_time: float
@@ -72,6 +68,10 @@ class RingMetrics:
     band: float
     band_fraction: float
     extrema: int
+    ring_amplitude: float | None = None
+    ring_reason: str | None = None
+    settling_reason: str | None = None
+    fit: RingFit | None = None
 
     @property
     def kind(self) -> str:
@@ -94,38 +94,19 @@ class RingMetrics:
             "settling_band": self.band,
             "settling_band_fraction": self.band_fraction,
             "extrema": self.extrema,
+            "ring_amplitude": self.ring_amplitude,
+            "ring_reason": self.ring_reason,
+            "settling_reason": self.settling_reason,
+            "fit_window": None if self.fit is None else [self.fit.start, self.fit.stop],
+            "first_lobe_skipped": None if self.fit is None else self.fit.first_lobe_skipped,
+            "samples_per_period": None if self.fit is None else self.fit.samples_per_period,
+            "residual_noise": None if self.fit is None else self.fit.noise,
+            "second_mode": None if self.fit is None or self.fit.second is None else {
+                "frequency": self.fit.second.frequency,
+                "damping_ratio": self.fit.second.damping_ratio,
+                "amplitude": self.fit.second.amplitude,
+            },
         }
-
-
-@dataclass(frozen=True)
-class DampedSine:
-    """Fitted free response: x = amplitude exp(-alpha tau) cos(omega tau + phase)
-    + offset, tau measured from ``t0`` (s). alpha in 1/s, omega in rad/s."""
-
-    t0: float
-    alpha: float
-    omega: float
-    amplitude: float
-    phase: float
-    offset: float
-
-    @property
-    def frequency(self) -> float:
-        return self.omega / (2 * np.pi)
-
-    @property
-    def log_decrement(self) -> float:
-        return 2 * np.pi * self.alpha / self.omega
-
-    @property
-    def damping_ratio(self) -> float:
-        return float(self.alpha / np.hypot(self.alpha, self.omega))
-
-    def __call__(self, t: np.ndarray) -> np.ndarray:
-        tau = np.asarray(t) - self.t0
-        return self.amplitude * np.exp(-self.alpha * tau) * np.cos(
-            self.omega * tau + self.phase
-        ) + self.offset
 
 
 def ring_metrics(
@@ -154,9 +135,15 @@ def ring_metrics(
     for k, edge in enumerate(edges):
         if k + 1 < len(edges):
             nxt = edges[k + 1]
-            # stop before the next transition begins: back off three times the
-            # samples it took from the threshold to 50 %
-            end = nxt.start - 3 * (nxt.index - nxt.start) - 2
+            # stop before the next transition begins: where the waveform last
+            # lay within 5 % of the span of its old level before the next edge
+            # (a slow start, e.g. a Miller plateau, leaves the level early),
+            # then back off three times the samples it took from there to 50 %
+            old = nxt.low if nxt.direction > 0 else nxt.high
+            near = np.flatnonzero(np.abs(v[edge.index : nxt.start + 1] - old)
+                                  <= 0.05 * (nxt.high - nxt.low))
+            start = edge.index + int(near[-1]) if near.size else nxt.start
+            end = start - 3 * (nxt.index - nxt.start) - 2
         else:
             end = len(t) - 1
         if previous_final is None:
@@ -204,18 +191,28 @@ def edge_metrics(
     peak = float(v[i0 + ip])
     overshoot = max(float(x[ip]), 0.0)
     mag = abs(step) if step != 0 else 1.0
-    tail = x[int(0.6 * len(x)) :]
-    sigma = _noise_sigma(tail)
-    fit = fit_ring(ts[ip:], x[ip:], sigma=sigma, scale=mag)
+    fit = fit_ring(ts, x, scale=mag)
+    reason = fit if isinstance(fit, str) else None
+    ring = None if isinstance(fit, str) else fit
     band_v = band * abs(step)
-    outside = np.flatnonzero(np.abs(v[i0 : end + 1] - final) > band_v)
+    outside = np.flatnonzero(np.abs(x) > band_v)
     settling: float | None
+    settling_reason = None
     if outside.size == 0:
         settling = max(float(ts[0] - edge.time), 0.0)
     elif outside[-1] >= len(x) - 1 - max(2, len(x) // 50):
         settling = None
+        settling_reason = (f"still outside +-{band_v:.3g} V of the final level at the end of "
+                           f"its window ({(ts[-1] - edge.time) * 1e9:.4g} ns after the edge)")
     else:
         settling = float(ts[outside[-1] + 1] - edge.time)
+        if ring is not None:
+            # between the samples: a ring sampled a few times per period has its
+            # peaks between them, so the fitted ring is read on a fine grid too
+            fine = _fine_grid(ring.start, ring.stop, float(ts[1] - ts[0]) / 16)
+            out_fit = np.flatnonzero(np.abs(ring.deviation(fine)) > band_v)
+            if out_fit.size:
+                settling = max(settling, float(fine[out_fit[-1]] - edge.time))
     return RingMetrics(
         edge_time=edge.time,
         direction=d,
@@ -225,95 +222,21 @@ def edge_metrics(
         peak=peak,
         overshoot=overshoot,
         overshoot_ratio=overshoot / mag,
-        frequency=None if fit is None else fit[0].frequency,
-        damping_ratio=None if fit is None else fit[0].damping_ratio,
-        log_decrement=None if fit is None else fit[0].log_decrement,
+        frequency=None if ring is None else ring.mode.frequency,
+        damping_ratio=None if ring is None else ring.mode.damping_ratio,
+        log_decrement=None if ring is None else ring.mode.log_decrement,
         settling_time=settling,
         band=band_v,
         band_fraction=band,
-        extrema=0 if fit is None else fit[1],
+        extrema=0 if ring is None else ring.extrema,
+        ring_amplitude=None if ring is None else ring.mode.amplitude,
+        ring_reason=reason,
+        settling_reason=settling_reason,
+        fit=ring,
     )
 
 
-def ring_extrema(x: np.ndarray, hysteresis: float) -> list[int]:
-    """Indices of the alternating extrema of ``x`` (a ring about 0): the largest
-    |x| in each run between crossings of +-``hysteresis``."""
-    state = np.where(x > hysteresis, 1, np.where(x < -hysteresis, -1, 0))
-    armed = np.flatnonzero(state)
-    if armed.size == 0:
-        return []
-    s = state[armed]
-    bounds = np.concatenate([[0], np.flatnonzero(s[1:] != s[:-1]) + 1, [armed.size]])
-    out: list[int] = []
-    for a, b in zip(bounds[:-1], bounds[1:], strict=True):
-        lo, hi = int(armed[a]), int(armed[b - 1])
-        run = np.abs(x[lo : hi + 1])
-        out.append(lo + int(np.argmax(run)))
-    return out
-
-
-def fit_ring(
-    t: np.ndarray, x: np.ndarray, *, sigma: float, scale: float, max_samples: int = 40_000
-) -> tuple[DampedSine, int] | None:
-    """Fit a damped sinusoid to the ring ``x(t)`` that starts at its first peak
-    ``t[0]``. ``sigma`` is the noise deviation, ``scale`` the step size (for
-    the hysteresis floor, 0.2 % of the step). Returns the fit and the number
-    of extrema seen, or ``None`` when fewer than two extrema stand above the
-    noise."""
-    from scipy.optimize import least_squares
-
-    h = max(3.0 * sigma, 2e-3 * scale)
-    ext = ring_extrema(x, h)
-    # keep extrema that stand clearly above the noise
-    ext = [i for i in ext if abs(x[i]) > 1.2 * h]
-    # they must alternate, starting with the first peak
-    if len(ext) < 2 or ext[0] > len(x) // 2:
-        return None
-    if len(ext) < 2:
-        return None
-    first_gap = ext[1] - ext[0]
-    for k in range(1, len(ext)):
-        gap = ext[k] - ext[k - 1]
-        if x[ext[k]] * x[ext[k - 1]] > 0 or gap > 1.6 * first_gap or gap < 0.6 * first_gap:
-            ext = ext[:k]
-            break
-    if len(ext) < 2:
-        return None
-    te = t[ext]
-    half = float(np.mean(np.diff(te)))
-    omega0 = np.pi / half
-    a0, a1 = abs(x[ext[0]]), abs(x[ext[1]])
-    alpha0 = max(np.log(a0 / a1) / (te[1] - te[0]), 1e-3 * omega0)
-    # window: until the envelope sinks to the noise, at most 40 periods
-    t_env = np.log(max(a0, 1e-300) / max(sigma, 1e-6 * a0)) / alpha0
-    t_end = t[0] + min(max(t_env, 2.5 * half), 80 * half)
-    n = int(np.searchsorted(t, t_end))
-    n = max(n, min(len(t), ext[-1] + 2))
-    stride = max(1, n // max_samples)
-    tt = t[:n:stride] - t[0]
-    xx = x[:n:stride]
-
-    def basis(p: np.ndarray) -> np.ndarray:
-        alpha, omega = p[0] * omega0, p[1] * omega0
-        env = np.exp(-alpha * tt)
-        return np.column_stack([env * np.cos(omega * tt), env * np.sin(omega * tt), np.ones_like(tt)])
-
-    def residual(p: np.ndarray) -> np.ndarray:
-        b = basis(p)
-        coef, *_ = np.linalg.lstsq(b, xx, rcond=None)
-        return b @ coef - xx
-
-    p0 = np.array([alpha0 / omega0, 1.0])
-    try:
-        sol = least_squares(
-            residual, p0, bounds=([0.0, 0.5], [10.0, 2.0]), x_scale=np.array([max(p0[0], 0.01), 0.1])
-        )
-        p = sol.x
-    except (ValueError, np.linalg.LinAlgError):
-        p = p0
-    alpha, omega = float(p[0] * omega0), float(p[1] * omega0)
-    coef, *_ = np.linalg.lstsq(basis(p), xx, rcond=None)
-    amp = float(np.hypot(coef[0], coef[1]))
-    phase = float(np.arctan2(-coef[1], coef[0]))
-    return DampedSine(t0=float(t[0]), alpha=alpha, omega=omega, amplitude=amp, phase=phase,
-                      offset=float(coef[2])), len(ext)
+def _fine_grid(start: float, stop: float, step: float, max_points: int = 400_000) -> np.ndarray:
+    """An even grid from ``start`` to ``stop`` (s), ``step`` apart or coarser."""
+    n = int(min(max_points, max(2, (stop - start) / step + 1)))
+    return np.linspace(start, stop, n)

@@ -12,6 +12,7 @@ _METRIC_ROWS = [
     ("overshoot", "peak overshoot", 1.0, "V", 2),
     ("overshoot_ratio", "overshoot / step", 100.0, "%", 1),
     ("settling_time", "settling time", 1e9, "ns", 1),
+    ("ring_amplitude", "ring amplitude", 1.0, "V", 2),
     ("step", "step", 1.0, "V", 2),
 ]
 
@@ -38,7 +39,10 @@ def _table(header: list[str], rows: list[list[str]], right: set[int]) -> list[st
     return [fmt(header), *(fmt(r) for r in rows)]
 
 
-def _edge_rows(source: str, edges: list[dict[str, Any]], all_edges: bool) -> list[list[str]]:
+def _edge_rows(source: str, edges: list[dict[str, Any]], all_edges: bool,
+               notes: list[str]) -> list[list[str]]:
+    """Table rows of one waveform's edges; a metric that could not be measured
+    shows a note number, and ``notes`` gets the reason."""
     picked = list(enumerate(edges, 1))
     if not all_edges:
         last: dict[str, tuple[int, dict[str, Any]]] = {}
@@ -47,10 +51,21 @@ def _edge_rows(source: str, edges: list[dict[str, Any]], all_edges: bool) -> lis
         picked = sorted(last.values(), key=lambda p: p[0])
     rows = []
     for i, e in picked:
+        ring_note = settle_note = ""
+        if e["frequency"] is None and e.get("ring_reason"):
+            notes.append(f"{source} edge {i}, ring: {e['ring_reason']}")
+            ring_note = f"-  [{len(notes)}]"
+        if e["settling_time"] is None and e.get("settling_reason"):
+            notes.append(f"{source} edge {i}, settling: {e['settling_reason']}")
+            settle_note = f"-  [{len(notes)}]"
+        amp = e.get("ring_amplitude")
         rows.append([
             source, str(i), e["direction"], _num(e["edge_time"], 1e6, 4),
-            _num(e["frequency"], 1e-6, 2), _num(e["damping_ratio"], 1.0, 3),
-            _num(e["overshoot"], 1.0, 2), _num(e["settling_time"], 1e9, 1),
+            ring_note or _num(e["frequency"], 1e-6, 2),
+            ring_note or _num(e["damping_ratio"], 1.0, 3),
+            ring_note or _num(amp, 1.0, 2),
+            _num(e["overshoot"], 1.0, 2),
+            settle_note or _num(e["settling_time"], 1e9, 1),
         ])
     return rows
 
@@ -59,28 +74,43 @@ def format_ring_text(report: dict[str, Any], *, all_edges: bool = False) -> str:
     """Aligned tables: the edges of each waveform, the measured-against-simulated
     comparison, and the loop fit."""
     band = 100 * report["settling_band_fraction"]
-    out = [f"Ringing at node {report['node']} (settling band +-{band:g} % of each step)"]
+    out = [f"Ringing at node {report['node']}"]
+    where = report.get("read_at")
+    if where:
+        out.append(f"(read at {where})")
+    out.append(f"Settling: the time from the edge's 50 % crossing until the waveform stays "
+               f"within +-{band:g} % of the step around the final level; ring: a damped "
+               "sinusoid fitted after the first lobe (docs/ring.md).")
     header = ["waveform", "edge", "direction", "time (us)", "ring (MHz)", "damping",
-              "overshoot (V)", "settling (ns)"]
+              "ring amp. (V)", "overshoot (V)", "settling (ns)"]
     rows: list[list[str]] = []
+    notes: list[str] = []
     sims = report["simulations"]
     probe = (report.get("probe") or {}).get("name")
     for key in ("ideal", "augmented"):
         if key in sims:
             label = f"probe {probe}" if key == "augmented" and probe else key
-            rows += _edge_rows(label, sims[key]["edges"], all_edges)
+            rows += _edge_rows(label, sims[key]["edges"], all_edges, notes)
     if report.get("measured"):
-        rows += _edge_rows("measured", report["measured"]["edges"], True)
-    out += [""] + _table(header, rows, right={1, 3, 4, 5, 6, 7})
+        rows += _edge_rows("measured", report["measured"]["edges"], True, notes)
+    out += [""] + _table(header, rows, right={1, 3, 4, 5, 6, 7, 8})
+    out += [f"  [{k}] {n}" for k, n in enumerate(notes, 1)]
     if not all_edges:
-        counts = ", ".join(f"{k} {len(v['edges'])}" for k, v in sims.items())
-        out.append(f"(simulated edges: {counts}; the last of each direction shown, all of them "
+        counts = ", ".join(
+            f"{f'probe {probe} reading' if k == 'augmented' and probe else k} {len(v['edges'])}"
+            for k, v in sims.items())
+        out.append(f"(edges found: {counts}; the last of each direction shown, all of them "
                    "with --all-edges or --format json)")
     for comp in report.get("comparison", []):
         offset = comp["time_offset"]
         shift = "" if offset is None else f", shifted by {offset * 1e6:+.4f} us to line up"
-        out += ["", f"Measured edge {comp['measured_edge']} ({comp['direction']}) against the "
-                    f"last simulated {comp['direction']} edge{shift}:"]
+        sims_of = []
+        for key in ("augmented", "ideal"):
+            k = comp.get(f"{key}_edge")
+            sims_of.append(f"{key} edge {k}" if k is not None else f"no {key} edge")
+        rule = report.get("pairing", "order")
+        out += ["", f"Measured edge {comp['measured_edge']} ({comp['direction']}) against "
+                    f"{' and '.join(sims_of)} (pairing: {rule}){shift}:"]
         crows = []
         for key, label, scale, unit, digits in _METRIC_ROWS:
             r = comp["metrics"][key]
