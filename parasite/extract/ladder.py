@@ -57,7 +57,7 @@ class Ladder:
 
 
 def _model(params: np.ndarray, w: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
-    params = np.clip(params, -300.0, 300.0)  # the refinement may wander; exp stays finite
+    params = np.clip(params, -100.0, 100.0)  # the refinement may wander; exp stays finite
     r0, l0 = np.exp(params[0]), np.exp(params[1])
     rk, tk = np.exp(params[2:2 + n]), np.exp(params[2 + n:])
     x2 = (w[:, None] * tk) ** 2
