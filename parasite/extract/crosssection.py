@@ -201,19 +201,24 @@ class SectionImpedance:
         return self.resistance + 1j * w[:, None, None] * self.inductance
 
 
-def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency: np.ndarray,
-                  meshing: Meshing | None = None) -> SectionImpedance:
-    """R(f), L(f) matrices per unit length of the conductors (module docstring). ``frequency``
-    in Hz (>= 0; 0 is DC), the cells sized from ``meshing.f_max``."""
-    conductors = tuple(conductors)
-    meshing = meshing or Meshing(f_max=float(np.max(frequency)) if np.max(frequency) > 0 else 1e9)
+def _modes(conductors: tuple[Conductor, ...], meshing: Meshing) -> tuple[np.ndarray, np.ndarray, int]:
+    """B = P^T R^-1/2 Q (n_c, n) and lam (n,) s of the section (module docstring)."""
     cells = mesh_section(conductors, meshing)
     lmat = -MU0 / (2 * np.pi) * logmean_matrix(cells)
     rs = 1 / np.sqrt(cells.resistance)
     lam, q = np.linalg.eigh(rs[:, None] * lmat * rs[None, :])
     p = np.zeros((cells.area.size, len(conductors)))
     p[np.arange(cells.area.size), cells.owner] = 1.0
-    b = (p * rs[:, None]).T @ q  # (n_c, n)
+    return (p * rs[:, None]).T @ q, lam, cells.area.size
+
+
+def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency: np.ndarray,
+                  meshing: Meshing | None = None) -> SectionImpedance:
+    """R(f), L(f) matrices per unit length of the conductors (module docstring). ``frequency``
+    in Hz (>= 0; 0 is DC), the cells sized from ``meshing.f_max``."""
+    conductors = tuple(conductors)
+    meshing = meshing or Meshing(f_max=float(np.max(frequency)) if np.max(frequency) > 0 else 1e9)
+    b, lam, ncells = _modes(conductors, meshing)
     f = np.asarray(frequency, dtype=float)
     w = 2 * np.pi * f
     y = np.einsum("ci,fi,di->fcd", b, 1 / (1 + 1j * w[:, None] * lam[None, :]), b)
@@ -226,7 +231,17 @@ def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency
         y1 = (b * lam[None, :]) @ b.T
         z0 = np.linalg.inv(y0)
         ind[w == 0] = z0 @ y1 @ z0
-    return SectionImpedance(f, res, ind, cells.area.size)
+    return SectionImpedance(f, res, ind, ncells)
+
+
+def external_inductance(conductors: tuple[Conductor, ...] | list[Conductor],
+                        meshing: Meshing | None = None) -> np.ndarray:
+    """The w -> infinity limit of L (H/m, (n_c, n_c)): currents set by the inductances
+    alone, L_ext = (P^T L'^-1 P)^-1 = (B diag(1/lam) B^T)^-1; the current sits in the
+    surface cells, so the result approaches the external inductance as the first cell
+    thins."""
+    b, lam, _ = _modes(tuple(conductors), meshing or Meshing())
+    return np.linalg.inv((b / lam[None, :]) @ b.T)
 
 
 def loop_impedance(result: SectionImpedance, drive: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
