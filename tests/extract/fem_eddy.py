@@ -94,15 +94,15 @@ def graded(a: float, b: float, first: float, growth: float, max_cell: float | No
 
 
 def axis_lines(intervals: list[tuple[float, float]], outer: float, first: float, growth: float,
-               max_cell: float | None) -> np.ndarray:
+               max_cell: float | None, outer_growth: float = 1.8) -> np.ndarray:
     """Grid lines (m) on [-outer, outer] graded toward the ends of every interval (conductor
     extents and the gaps between them), coarsening geometrically outside."""
     ends = sorted({v for iv in intervals for v in iv})
     lines = [np.asarray(ends)]
     for lo, hi in zip(ends[:-1], ends[1:], strict=True):
         lines.append(graded(lo, hi, first, growth, max_cell))
-    lines.append(ends[0] - (graded(0.0, ends[0] + outer, first, growth, None, both=False)))
-    lines.append(ends[-1] + graded(0.0, outer - ends[-1], first, growth, None, both=False))
+    lines.append(ends[0] - (graded(0.0, ends[0] + outer, first, outer_growth, None, both=False)))
+    lines.append(ends[-1] + graded(0.0, outer - ends[-1], first, outer_growth, None, both=False))
     pts = np.unique(np.round(np.concatenate(lines), 15))
     return pts
 

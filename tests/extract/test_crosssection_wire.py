@@ -80,7 +80,7 @@ def test_square_self_gmd_is_maxwells() -> None:
 
 @pytest.mark.parametrize("pair", [
     (0.0, 0.0, 1.0, 0.2, 1.3, 0.5, 0.5, 0.3),
-    (0.0, 0.0, 1.0, 0.1, 0.0, 0.1, 1.0, 0.1),   # two strips sharing a side
+    (0.0, 0.0, 1.0, 0.1, 0.0, 0.15, 1.0, 0.1),  # two strips one strip-height apart
     (0.0, 0.0, 0.3, 0.3, 2.0, -1.0, 0.4, 0.2),   # far: the corrected centroid form
     (0.0, 0.0, 0.3, 0.3, 1.5, 1.3, 0.4, 0.2),
 ])
