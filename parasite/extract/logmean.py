@@ -154,7 +154,7 @@ def disc_logmean(edges: np.ndarray, sectors: int, harmonics: int | None = None) 
     return out
 
 
-def quadrature_points(kind: np.ndarray, geom: np.ndarray, order: int = 4) -> tuple[np.ndarray, np.ndarray]:
+def quadrature_points(kind: np.ndarray, geom: np.ndarray, order: int = 3) -> tuple[np.ndarray, np.ndarray]:
     """Gauss points (n, order^2, 2) in m and weights (n, order^2) summing to 1 for cells
     given as rows of ``geom``: rectangles (kind 0: cx, cy, w, h) and annular sectors
     (kind 1: centre x, centre y, r0, r1, theta0, theta1)."""
@@ -183,8 +183,14 @@ def quadrature_points(kind: np.ndarray, geom: np.ndarray, order: int = 4) -> tup
     return pts, wts
 
 
-def quadrature_logmean(pa: np.ndarray, wa: np.ndarray, pb: np.ndarray, wb: np.ndarray) -> np.ndarray:
-    """G by quadrature: points (n, q, 2), weights (n, q) of two cell lists, pairwise (n,)."""
-    diff = pa[:, :, None, :] - pb[:, None, :, :]
-    lg = 0.5 * np.log(np.sum(diff * diff, axis=-1))
-    return np.einsum("nij,ni,nj->n", lg, wa, wb)
+def quadrature_logmean(pa: np.ndarray, wa: np.ndarray, pb: np.ndarray, wb: np.ndarray,
+                       chunk: int = 4096) -> np.ndarray:
+    """G by quadrature: points (n, q, 2), weights (n, q) of two cell lists, pairwise (n,);
+    ``chunk`` pairs at a time bound the memory."""
+    out = np.empty(pa.shape[0])
+    for s in range(0, pa.shape[0], chunk):
+        sl = slice(s, s + chunk)
+        diff = pa[sl, :, None, :] - pb[sl, None, :, :]
+        lg = 0.5 * np.log(np.sum(diff * diff, axis=-1))
+        out[sl] = np.einsum("nij,ni,nj->n", lg, wa[sl], wb[sl])
+    return out
