@@ -59,8 +59,9 @@ def solve_key(key: tuple, grid: float, meshing: Meshing) -> tuple[np.ndarray, np
     if key[3] < 0:
         res = solve_section([bar], FREQ, meshing)
         return res.resistance[:, 0, 0], res.inductance[:, 0, 0]
-    plane = Rect(0.0, -t / 2 - h - PLANE_THICKNESS / 2, w + 10 * h, PLANE_THICKNESS)
-    return loop_impedance(solve_section([bar, plane], FREQ, meshing), [1.0, -1.0])
+    plane = Rect(0.0, -t / 2 - h - PLANE_THICKNESS / 2, w + 6 * h, PLANE_THICKNESS)
+    cell = Meshing(meshing.f_max, meshing.first, meshing.growth, max(w / 2, h / 2), meshing.sectors)
+    return loop_impedance(solve_section([bar, plane], FREQ, cell), [1.0, -1.0])
 
 
 def demo_arrays():
@@ -98,16 +99,17 @@ def main() -> None:
     ap.add_argument("--sample", type=int, default=12)
     ap.add_argument("--segments", type=int, default=5000)
     args = ap.parse_args()
-    meshing = Meshing(f_max=args.f_max, max_cell=50e-6)
-    rows = [measure("demo", demo_arrays(), args.grid, meshing, args.sample),
-            measure(f"generated {args.segments}", generated_arrays(args.segments), args.grid, meshing,
-                    args.sample)]
+    meshing = Meshing(f_max=args.f_max)
+    print(f"f_max {args.f_max:g} Hz, {FREQ.size} frequencies per solve, key grid {args.grid:g} m")
     print("| board | segments | distinct sections | solves timed | mean solve (s) | "
-          "no cache, projected (s) | with cache (s) | saving |")
-    print("|---|---|---|---|---|---|---|---|")
-    for r in rows:
+          "no cache, projected (s) | with cache, projected (s) | saving |")
+    print("|---|---|---|---|---|---|---|---|", flush=True)
+    for name, arrays in (("demo", demo_arrays),
+                         (f"generated {args.segments}", lambda: generated_arrays(args.segments))):
+        r = measure(name, arrays(), args.grid, meshing, args.sample)
         print(f"| {r['board']} | {r['segments']} | {r['distinct']} | {r['timed']} | {r['mean_s']:.3f} | "
-              f"{r['no_cache_s']:.0f} | {r['cache_s']:.1f} | {r['segments'] / r['distinct']:.0f}x |")
+              f"{r['no_cache_s']:.0f} | {r['cache_s']:.1f} | {r['segments'] / r['distinct']:.0f}x |",
+              flush=True)
 
 
 if __name__ == "__main__":

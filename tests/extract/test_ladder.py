@@ -66,7 +66,11 @@ def test_cards_in_ngspice_give_the_fitted_impedance() -> None:
     r, ind = lead_r_l(FREQ)
     lad = fit_ladder(FREQ, r, ind, stages=4)
     counter = itertools.count(1)
-    cards, coupling = ladder_cards(lad, "a", "0", lambda kind: f"{'n' if kind == 'node' else kind}x{next(counter)}")
+
+    def new_name(kind: str) -> str:
+        return f"{'n' if kind == 'node' else kind}x{next(counter)}"
+
+    cards, coupling = ladder_cards(lad, "a", "0", new_name)
     assert coupling.startswith("L") and any(c.startswith(coupling + " ") for c in cards)
     assert len({c.split()[0].lower() for c in cards}) == len(cards)
     deck = "\n".join(["ladder check", "I1 0 a AC 1", *cards, ".ac dec 10 1k 1g", ".end", ""])
