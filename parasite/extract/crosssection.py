@@ -169,13 +169,13 @@ def logmean_matrix(cells: Cells) -> np.ndarray:
     if rnd.size:
         pts, wts = quadrature_points(cells.kind, cells.geom)
         # a round cell with a cell of another conductor: quadrature
-        i, j = np.meshgrid(rnd, np.arange(n), indexing="ij")
-        keep = cells.owner[i] != cells.owner[j]
-        i, j = i[keep], j[keep]
-        if i.size:
-            val = quadrature_logmean(pts[i], wts[i], pts[j], wts[j])
-            out[i, j] = val
-            out[j, i] = val
+        gi, gj = np.meshgrid(rnd, np.arange(n), indexing="ij")
+        keep = cells.owner[gi] != cells.owner[gj]
+        qi, qj = gi[keep], gj[keep]
+        if qi.size:
+            val = quadrature_logmean(pts[qi], wts[qi], pts[qj], wts[qj])
+            out[qi, qj] = val
+            out[qj, qi] = val
         for _k, start, layers, sectors, er in cells.discs:
             gd = disc_logmean(er, sectors)  # (layers, layers, sectors)
             li, si = np.divmod(np.arange(layers * sectors), sectors)
