@@ -251,3 +251,37 @@ def loop_impedance(result: SectionImpedance, drive: np.ndarray) -> tuple[np.ndar
     e = np.asarray(drive, dtype=float)
     return (np.einsum("c,fcd,d->f", e, result.resistance, e),
             np.einsum("c,fcd,d->f", e, result.inductance, e))
+
+
+class SectionCache:
+    """Solves of :func:`solve_section` kept by a key of the section and its
+    neighbourhood: every conductor's shape and position relative to the first
+    conductor (so a section repeated elsewhere on the board hits), rounded to ``grid``
+    (m), its resistivity, the meshing and the frequencies. ``hits``/``misses`` count."""
+
+    def __init__(self, grid: float = 1e-9) -> None:
+        self.grid = grid
+        self.hits = 0
+        self.misses = 0
+        self._store: dict[tuple, SectionImpedance] = {}
+
+    def key(self, conductors: tuple[Conductor, ...], frequency: np.ndarray, meshing: Meshing) -> tuple:
+        x0, y0 = conductors[0].x, conductors[0].y
+        parts = []
+        for c in conductors:
+            size = (c.width, c.height) if isinstance(c, Rect) else (c.radius,)
+            parts.append((type(c).__name__, round((c.x - x0) / self.grid), round((c.y - y0) / self.grid),
+                          *(round(v / self.grid) for v in size), c.resistivity))
+        return (tuple(parts), tuple(np.asarray(frequency, dtype=float).tolist()), meshing)
+
+    def solve(self, conductors: tuple[Conductor, ...] | list[Conductor], frequency: np.ndarray,
+              meshing: Meshing | None = None) -> SectionImpedance:
+        conductors = tuple(conductors)
+        meshing = meshing or Meshing()
+        k = self.key(conductors, frequency, meshing)
+        if k in self._store:
+            self.hits += 1
+        else:
+            self.misses += 1
+            self._store[k] = solve_section(conductors, frequency, meshing)
+        return self._store[k]

@@ -120,3 +120,19 @@ def test_disc_cells_average_to_maxwells_disc() -> None:
     ref, _ = integrate.nquad(f, [[th, 2 * th], [0.6, 0.9], [0.0, th], [0.9, 1.0]],
                              opts={"epsabs": 1e-9})
     assert g[3, 2, n - 1] == pytest.approx(ref / (area[3] * area[2]), abs=1e-6)
+
+
+def test_cache_returns_the_same_solve_for_a_moved_section() -> None:
+    """A section moved elsewhere (same shapes, same relative positions) hits the cache
+    and returns the solve of the first; a changed neighbour misses (common practice:
+    a cache must not merge different geometries)."""
+    from parasite.extract.crosssection import Rect, SectionCache
+
+    cache = SectionCache(grid=1e-7)
+    f = np.array([1e6])
+    m = Meshing(f_max=1e6)
+    a = cache.solve([Rect(0.0, 0.0, 0.2e-3, 35e-6), Rect(0.0, -0.2e-3, 1e-3, 35e-6)], f, m)
+    b = cache.solve([Rect(5e-3, 1e-3, 0.2e-3, 35e-6), Rect(5e-3, 0.8e-3, 1e-3, 35e-6)], f, m)
+    c = cache.solve([Rect(0.0, 0.0, 0.2e-3, 35e-6), Rect(0.0, -0.3e-3, 1e-3, 35e-6)], f, m)
+    assert b is a and c is not a and (cache.hits, cache.misses) == (1, 2)
+    assert not np.allclose(c.inductance[0, 0, 1], a.inductance[0, 0, 1], rtol=1e-3)
