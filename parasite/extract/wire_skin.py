@@ -35,7 +35,7 @@ def round_wire_internal_impedance(radius: float, resistivity: float, frequency: 
         k = (1 - 1j) / delta
         ka = k * radius
         z = k * special.jve(0, ka) / (2 * np.pi * radius * sigma * special.jve(1, ka))
-    # below |ka| ~ 1e-3 the ratio loses digits: series Z = R_dc (1 + (ka)^2... ) -> R_dc + j w mu0/(8 pi)
+    # below |ka| = 1e-3 the ratio loses digits; there Z = R_dc + j w mu0/(8 pi) to O(|ka|^4)
     small = ~(np.abs(ka) > 1e-3)
     return np.where(small, rdc + 1j * w * MU0 / (8 * np.pi), z)
 
