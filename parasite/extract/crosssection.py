@@ -31,8 +31,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from parasite.errors import ExtractionError
 from parasite.extract.logmean import disc_logmean, quadrature_logmean, quadrature_points, rect_logmean
-from parasite.extract.resistance import MU0
+from parasite.extract.resistance import MU0, skin_depth
 
 RHO_COPPER = 1.7241e-8
 """Annealed copper at 20 degC, ohm m (IEC 60028, 1925)."""
@@ -86,9 +87,34 @@ class Cells:
 
 
 def skin_depth_m(resistivity: float, frequency: float) -> float:
-    """delta = sqrt(rho/(pi f mu0)) (m), non-magnetic conductor (Ramo, Whinnery & Van Duzer,
-    *Fields and Waves in Communication Electronics*, 3rd ed., 1994, sec. 3.16)."""
-    return math.sqrt(resistivity / (math.pi * frequency * MU0))
+    """delta (m) of a non-magnetic conductor: :func:`parasite.extract.resistance.skin_depth`."""
+    return skin_depth(resistivity, frequency)
+
+
+def check_section(conductors: tuple[Conductor, ...], frequency: np.ndarray) -> None:
+    """Raise ExtractionError, naming the conductor or key, for a size or resistivity that
+    is not positive and finite, overlapping conductors, or a negative frequency."""
+    if not conductors:
+        raise ExtractionError("a cross-section needs at least one conductor", key="conductors")
+    boxes = []
+    for k, c in enumerate(conductors):
+        sizes = (c.width, c.height) if isinstance(c, Rect) else (c.radius,)
+        values = (*sizes, c.resistivity, c.x, c.y)
+        if not all(math.isfinite(v) for v in values) or min(*sizes, c.resistivity) <= 0:
+            raise ExtractionError(f"conductor {k} ({c!r}) needs finite positive sizes and resistivity",
+                                  key=f"conductors[{k}]")
+        half = (c.width / 2, c.height / 2) if isinstance(c, Rect) else (c.radius, c.radius)
+        boxes.append((c.x - half[0], c.x + half[0], c.y - half[1], c.y + half[1]))
+    for i in range(len(boxes)):
+        for j in range(i):
+            a, b = boxes[i], boxes[j]
+            if a[0] < b[1] and b[0] < a[1] and a[2] < b[3] and b[2] < a[3]:
+                raise ExtractionError(f"conductors {j} and {i} overlap (their bounding boxes do)",
+                                      key=f"conductors[{i}]")
+    f = np.asarray(frequency, dtype=float)
+    if f.ndim != 1 or f.size == 0 or not np.all(np.isfinite(f)) or np.any(f < 0):
+        raise ExtractionError("frequencies must be a non-empty list of finite values >= 0 Hz",
+                              key="frequency")
 
 
 def graded_edges(length: float, first: float, growth: float, max_cell: float | None,
@@ -193,6 +219,8 @@ class SectionImpedance:
     resistance: np.ndarray
     inductance: np.ndarray
     cells: int
+    external: np.ndarray
+    """The w -> infinity limit of L (H/m, (n_c, n_c)), see :func:`external_inductance`."""
 
     @property
     def impedance(self) -> np.ndarray:
@@ -217,6 +245,7 @@ def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency
     """R(f), L(f) matrices per unit length of the conductors (module docstring). ``frequency``
     in Hz (>= 0; 0 is DC), the cells sized from ``meshing.f_max``."""
     conductors = tuple(conductors)
+    check_section(conductors, frequency)
     meshing = meshing or Meshing(f_max=float(np.max(frequency)) if np.max(frequency) > 0 else 1e9)
     b, lam, ncells = _modes(conductors, meshing)
     f = np.asarray(frequency, dtype=float)
@@ -231,7 +260,7 @@ def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency
         y1 = (b * lam[None, :]) @ b.T
         z0 = np.linalg.inv(y0)
         ind[w == 0] = z0 @ y1 @ z0
-    return SectionImpedance(f, res, ind, ncells)
+    return SectionImpedance(f, res, ind, ncells, np.linalg.inv((b / lam[None, :]) @ b.T))
 
 
 def external_inductance(conductors: tuple[Conductor, ...] | list[Conductor],
@@ -240,8 +269,7 @@ def external_inductance(conductors: tuple[Conductor, ...] | list[Conductor],
     alone, L_ext = (P^T L'^-1 P)^-1 = (B diag(1/lam) B^T)^-1; the current sits in the
     surface cells, so the result approaches the external inductance as the first cell
     thins."""
-    b, lam, _ = _modes(tuple(conductors), meshing or Meshing())
-    return np.linalg.inv((b / lam[None, :]) @ b.T)
+    return solve_section(conductors, np.array([0.0]), meshing or Meshing()).external
 
 
 def loop_impedance(result: SectionImpedance, drive: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

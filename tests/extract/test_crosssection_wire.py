@@ -136,3 +136,17 @@ def test_cache_returns_the_same_solve_for_a_moved_section() -> None:
     c = cache.solve([Rect(0.0, 0.0, 0.2e-3, 35e-6), Rect(0.0, -0.3e-3, 1e-3, 35e-6)], f, m)
     assert b is a and c is not a and (cache.hits, cache.misses) == (1, 2)
     assert not np.allclose(c.inductance[0, 0, 1], a.inductance[0, 0, 1], rtol=1e-3)
+
+
+@pytest.mark.parametrize(("conductors", "freq", "match"), [
+    ([Circle(0.0, 0.0, -1e-3)], [1e6], r"conductor 0 .* positive"),
+    ([Circle(0.0, 0.0, 1e-3), Circle(0.5e-3, 0.0, 1e-3)], [1e6], "conductors 0 and 1 overlap"),
+    ([Circle(0.0, 0.0, 1e-3)], [-1.0], "frequencies"),
+    ([], [1e6], "at least one"),
+])
+def test_bad_sections_are_refused(conductors: list, freq: list, match: str) -> None:
+    """Bad geometry or frequencies raise the package's ExtractionError naming the place."""
+    from parasite.errors import ExtractionError
+
+    with pytest.raises(ExtractionError, match=match):
+        solve_section(conductors, np.array(freq))
