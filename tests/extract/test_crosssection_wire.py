@@ -88,9 +88,9 @@ def test_square_self_gmd_is_maxwells() -> None:
 ])
 def test_rectangle_log_mean_matches_quadrature(pair: tuple[float, ...]) -> None:
     """Mean of ln|r - r'| over two rectangles against scipy.integrate.nquad of the
-    four-fold integral. Tolerance 1e-5 absolute: the far-pair form's stated error
-    (3.4e-6 measured for the elongated pair just past the switch; the exact form
-    agrees to about 1e-12)."""
+    four-fold integral. Tolerance 1e-5 absolute for far pairs: the far-pair form's
+    stated error (3.4e-6 measured for the elongated pair just past the switch); 1e-7 for
+    the exact form (nquad's accuracy; it agrees to about 1e-12)."""
     xa, ya, wa, ha, xb, yb, wb, hb = pair
 
     def f(y2: float, x2: float, y1: float, x1: float) -> float:
@@ -100,7 +100,9 @@ def test_rectangle_log_mean_matches_quadrature(pair: tuple[float, ...]) -> None:
                                  [ya - ha / 2, ya + ha / 2], [xa - wa / 2, xa + wa / 2]],
                              opts={"epsabs": 1e-10})
     ref /= wa * ha * wb * hb
-    assert rect_logmean(xa, ya, wa, ha, xb, yb, wb, hb) == pytest.approx(ref, abs=1e-5)
+    far = np.hypot(xb - xa, yb - ya) > 8 * max(np.hypot(wa, ha), np.hypot(wb, hb))
+    tol = 1e-5 if far else 1e-7
+    assert rect_logmean(xa, ya, wa, ha, xb, yb, wb, hb) == pytest.approx(ref, abs=tol)
 
 
 def test_disc_cells_average_to_maxwells_disc() -> None:
