@@ -12,7 +12,8 @@ J0, J1 of complex argument from scipy.special.jve (scaled by exp(-|Im z|), the
 scale cancels in the ratio). Limits: R -> R_dc = 1/(sigma pi a^2) and
 L_int -> mu0/(8 pi) = 50 nH/m at DC; for a >> delta, R -> R_s/(2 pi a) with
 R_s = 1/(sigma delta) and L_int -> R/w = mu0 delta/(4 pi a) -> 0, so the internal
-inductance falls as 1/sqrt(f): at a = 4 delta it is already about 0.35 mu0/(8 pi).
+inductance falls as 1/sqrt(f), toward 2 delta/a times its DC value: 87% of it at
+a = 2 delta, 49% at a = 4 delta, 20% at a = 10 delta (this formula, evaluated).
 """
 
 from __future__ import annotations
