@@ -9,11 +9,16 @@ parallel with an inductor L_k (a Foster form)::
 
 so R rises from R0 (DC) to R0 + sum R_k and L falls from L0 + sum L_k to L0, as
 the skin effect does. Every element is positive, so the network is passive by
-construction (a network of positive R and L is). Parallel R-L sections in series
-for the skin effect follow S. Kim and D. P. Neikirk, "Compact equivalent circuit
-model for the skin effect", IEEE MTT-S Int. Microwave Symp. Digest, 1996 (their
-ladder is of this kind; cited from memory, we do not reproduce their element
-ratios). The fit: time constants fixed and log-spaced over the band, R0, L0, R_k
+construction (a network of positive R and L is). This is the Foster form of an R-L
+driving-point impedance: every R-L one-port has it, with poles on the negative real
+axis (E. A. Guillemin, *Synthesis of Passive Networks*, 1957, R-L and R-C one-ports;
+cited from memory). R-L ladders as skin-effect models are an established technique
+(e.g. C.-S. Yen, Z. Fazarinc, R. L. Wheeler, "Time-domain skin-effect model for
+transient analysis of lossy transmission lines", Proc. IEEE 70(7), 1982; S. Kim and
+D. P. Neikirk, "Compact equivalent circuit model for the skin effect", IEEE MTT-S
+Int. Microwave Symp. Digest, 1996; both cited from memory, their topologies and
+element ratios are not reproduced here). The fit: time constants fixed and
+log-spaced over the band, R0, L0, R_k
 by non-negative least squares on the relative errors of R and L (C. L. Lawson,
 R. J. Hanson, *Solving Least Squares Problems*, 1974, ch. 23; scipy.optimize.nnls),
 then all parameters refined together in logarithms (positive by construction) by
@@ -21,7 +26,9 @@ scipy.optimize.least_squares.
 
 The external flux of the branch links all of its current, which flows through L0
 only: L0 carries the couplings (K statements) to other branches; the sections
-model the internal flux, which no other branch shares.
+model the internal flux, which no other branch shares. (This placement is our
+reasoning, not taken from a paper; it neglects the small frequency dependence of
+the mutual inductances themselves.)
 """
 
 from __future__ import annotations
