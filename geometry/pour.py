@@ -81,14 +81,26 @@ def _check_ring(ctx: Context, pts: Sequence[Point2], path: KeyPath, what: str) -
     poly = Polygon(pts)
     x0, y0, x1, y1 = poly.bounds
     box_area = max((x1 - x0) * (y1 - y0), 0.0)
-    if not (poly.area > AREA_TOLERANCE * box_area and box_area > 0):
-        ctx.fail(path, f"{what} encloses zero area (its corners lie on one line or coincide); "
+    if _on_one_line(pts) or box_area <= 0 or "Too few points" in shapely.is_valid_reason(poly):
+        ctx.fail(path, f"the {what} encloses zero area (its corners lie on one line or coincide); "
                        f"a {what} needs corners that enclose copper")
     if not poly.is_valid:
         reason = shapely.is_valid_reason(poly)
-        ctx.fail(path, f"{what} crosses or touches itself ({_where(ctx, reason)}); list the corners "
-                       f"in order around the boundary, without a crossing")
+        ctx.fail(path, f"the {what} crosses or touches itself ({_where(ctx, reason)}); list the "
+                       f"corners in order around the boundary, without a crossing")
+    if not poly.area > AREA_TOLERANCE * box_area:
+        ctx.fail(path, f"the {what} encloses zero area; a {what} needs corners that enclose copper")
     return poly
+
+
+def _on_one_line(pts: Sequence[Point2]) -> bool:
+    """All corners on one straight line (cross products of the edges from the first
+    corner all zero, to rounding)."""
+    x0, y0 = pts[0]
+    far = max(pts, key=lambda p: (p[0] - x0) ** 2 + (p[1] - y0) ** 2)
+    dx, dy = far[0] - x0, far[1] - y0
+    scale = dx * dx + dy * dy
+    return scale == 0 or all(abs(dx * (y - y0) - dy * (x - x0)) <= 1e-12 * scale for x, y in pts)
 
 
 def _where(ctx: Context, reason: str) -> str:
