@@ -11,8 +11,9 @@ Grid: a non-uniform rectilinear grid of lines ``gx`` (x = const) and ``gy``
 point (vias, pins, trace ends, trace centre lines: where current enters or
 crowds), puts a grid line through it; between those lines the spacing grows
 from ``fine`` at a line to at most ``cell`` away from it (spacing
-``h(d) = min(cell, fine + GRADING d)`` at distance ``d`` from the nearest such
-line, lines placed by equidistributing the integral of 1/h).
+``h(d) = min(cell, fine + GRADING max(d - fine, 0))`` at distance ``d`` from the
+nearest such line, lines placed by equidistributing the integral of 1/h, so the
+first cell beside a line is at most ``fine``).
 
 Nodes: the grid crossings covered by the copper (on its boundary included).
 Cells: an x-cell joins two nodes adjacent along a grid row; it is a bar from
@@ -139,7 +140,8 @@ def grid_lines(lo: float, hi: float, features: Iterable[float], cell: float,
     for a, b in zip(f[:-1], f[1:], strict=True):
         span = b - a
         s = frac * span
-        h = np.minimum(cell, fine + GRADING * np.minimum(s, span - s))
+        d = np.maximum(np.minimum(s, span - s) - fine, 0.0)
+        h = np.minimum(cell, fine + GRADING * d)
         inv = 1.0 / h
         cum = np.concatenate([[0.0], np.cumsum(0.5 * (inv[1:] + inv[:-1]) * np.diff(s))])
         n = max(1, math.ceil(cum[-1] - 1e-9))
