@@ -31,9 +31,11 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
+from scipy.linalg import solve
 from scipy.sparse.csgraph import breadth_first_order, connected_components
 from scipy.sparse.linalg import splu
 
@@ -102,6 +104,25 @@ def _forest(u: np.ndarray, v: np.ndarray, n: int) -> np.ndarray:
     return mask
 
 
+def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
+            nb: int, chunk: int = 512) -> sp.csc_matrix:
+    """Fundamental cycle matrix B (N, c): column k is chord k (+1) and the tree path
+    that closes it (entries -1, 0, +1, from the tree's incidence solve), built
+    ``chunk`` chords at a time so that the dense temporary stays small."""
+    rows = [chords]
+    cols = [np.arange(chords.size)]
+    vals = [np.ones(chords.size)]
+    for c0 in range(0, chords.size, chunk):
+        part = chords[c0:c0 + chunk]
+        path = -np.rint(lu.solve(A[:, part].toarray()))
+        r, k = np.nonzero(path)
+        rows.append(tb[r])
+        cols.append(k + c0)
+        vals.append(path[r, k])
+    return sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                         shape=(nb, chords.size))
+
+
 def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.ndarray,
                R: np.ndarray, frequency: float, plus: NodeSet, minus: NodeSet,
                shorts: Sequence[NodeSet] = ()) -> PortSolution:
@@ -150,23 +171,21 @@ def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.n
     if chords.size == 0:
         i = i_p.astype(complex) if omega > 0 else i_p
     else:
-        path = -np.rint(lu.solve(A[:, chords].toarray()))
-        r, k = np.nonzero(path)
-        B = sp.csc_matrix((np.concatenate([np.ones(chords.size), path[r, k]]),
-                           (np.concatenate([chords, tb[r]]),
-                            np.concatenate([np.arange(chords.size), k]))),
-                          shape=(nb, chords.size))
+        B = _cycles(lu, A, tb, chords, nb)
         BtR = (B.T @ sp.diags(R)).tocsr()
-        mesh_r = (BtR @ B).toarray()
         rhs_r = BtR @ i_p
         if omega == 0.0:
-            i = i_p + B @ np.linalg.solve(mesh_r, -rhs_r)
+            i = i_p + B @ splu((BtR @ B).tocsc()).solve(-rhs_r)
         else:
             BtL = np.asarray(B.T @ L)  # (c, N) dense, sparse x dense
-            mesh_l = np.asarray((B.T @ BtL.T).T)
-            mesh = mesh_r + 1j * omega * mesh_l
             rhs = rhs_r + 1j * omega * (BtL @ i_p)
-            i = i_p + B @ np.linalg.solve(mesh, -rhs)
+            mesh = np.asarray((B.T @ BtL.T).T).astype(complex)  # B^T L B, symmetric
+            del BtL
+            mesh *= 1j * omega
+            mesh += (BtR @ B).toarray()
+            # complex symmetric (not Hermitian): LDL^T, half the work of LU
+            i = i_p + B @ solve(mesh, -rhs, assume_a="sym", overwrite_a=True,
+                                check_finite=False)
     Li = L @ i
     if omega > 0:
         z = complex(np.sum(np.conj(i) * (R * i + 1j * omega * Li)))
