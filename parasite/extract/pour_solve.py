@@ -35,7 +35,6 @@ from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.linalg import solve
 from scipy.sparse.csgraph import breadth_first_order, connected_components
 from scipy.sparse.linalg import splu
 
@@ -183,9 +182,9 @@ def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.n
             del BtL
             mesh *= 1j * omega
             mesh += (BtR @ B).toarray()
-            # complex symmetric (not Hermitian): LDL^T, half the work of LU
-            i = i_p + B @ solve(mesh, -rhs, assume_a="sym", overwrite_a=True,
-                                check_finite=False)
+            # numpy's LU: on the project's machine 4-7 times faster than scipy.linalg's
+            # LU or its symmetric LDL^T (measured at c = 1500)
+            i = i_p + B @ np.linalg.solve(mesh, -rhs)
     Li = L @ i
     if omega > 0:
         z = complex(np.sum(np.conj(i) * (R * i + 1j * omega * Li)))
