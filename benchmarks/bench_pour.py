@@ -10,6 +10,13 @@ times the longer cell: :data:`parasite.extract.matrix.FAR_RULES`), and how
 many distinct cell shapes the mesh has (a uniform interior repeats a few
 shapes at many offsets).
 
+What would remove the cost (figures in docs/pours.md): the pair terms repeat
+at the same offsets on a regular grid, so tabulating them by (shape pair,
+offset), or compressing far blocks to low rank, removes most of the O(N^2)
+pair work and memory; an iterative Krylov solve with a near-field
+preconditioner and fast far-field products removes the O(c^3) dense LU of the
+cycle matrix.
+
 Run: ``.venv/bin/python benchmarks/bench_pour.py [--side MM] [--cell MM]``.
 The geometry is invented test data.
 """
