@@ -55,6 +55,9 @@ BLOCK_PAIRS = 250_000
 SECTION_TOLERANCE = 1e-4
 """Relative error aimed at by the quadrature over a bar's section."""
 
+POINT_BLOCK = 64
+"""Points per block with the compiled kernel (the section orders are chosen per block)."""
+
 MAX_SECTION_ORDER = 24
 """Most Gauss-Legendre filaments across a bar's width (or thickness)."""
 
@@ -146,70 +149,76 @@ def _filaments(arrays: SegmentArrays, seg: np.ndarray, nw: int, nt: int,
 
 
 def segment_field(points: np.ndarray, arrays: SegmentArrays, currents: np.ndarray, *,
-                  images: bool = True, tolerance: float = SECTION_TOLERANCE) -> np.ndarray:
+                  images: bool = True, tolerance: float = SECTION_TOLERANCE,
+                  compiled: bool | None = None) -> np.ndarray:
     """Magnetic flux density (T) at ``points`` (P, 3) m of the segment currents
     ``currents`` (S,) A (real, or complex phasors) flowing ``start`` -> ``end``.
 
     Returns (P, 3), complex when the currents are. ``images``: include the
     return planes' images and shielding (``arrays.mirror_z``; module docstring).
-    Segments that carry no current are skipped.
+    Segments that carry no current are skipped. ``compiled``: use the numba
+    kernel (:mod:`parasite.field.kernel_jit`; default: when numba is installed)
+    or plain numpy blocks (False); both evaluate the same formula.
     """
+    from parasite.field import kernel_jit
+
     points = np.atleast_2d(np.asarray(points, dtype=float))
     currents = np.asarray(currents)
-    dtype = np.result_type(currents.dtype, np.float64)
-    out = np.zeros((len(points), 3), dtype=dtype)
+    complex_out = np.iscomplexobj(currents)
+    out = np.zeros((len(points), 3), dtype=complex)
     live = np.flatnonzero(currents != 0)
-    if len(live) == 0 or len(points) == 0:
-        return out
-    axes = _width_axes(arrays)
-    half = 0.5 * np.maximum(arrays.width, arrays.thickness)[:, None]
-    seg_lo = np.minimum(arrays.start, arrays.end) - half
-    seg_hi = np.maximum(arrays.start, arrays.end) + half
-    mirror = arrays.mirror_z if images else np.full(len(arrays), np.nan)
-    has_plane = np.isfinite(mirror)
-    # Blocks of points sized for the filaments of the worst (densest) order
-    worst = max(1, len(live) * 4)
-    step = max(1, BLOCK_PAIRS // worst)
-    for p0 in range(0, len(points), step):
-        pts = points[p0:p0 + step]
-        lo, hi = pts.min(axis=0), pts.max(axis=0)
-        dist = _box_distance(seg_lo[live], seg_hi[live], lo, hi)
-        nw = np.where(arrays.round[live], 1, section_orders(arrays.width[live], dist, tolerance))
-        nt = np.where(arrays.round[live], 1, section_orders(arrays.thickness[live], dist, tolerance))
-        for a, b in sorted(set(zip(nw.tolist(), nt.tolist(), strict=True))):
-            seg = live[(nw == a) & (nt == b)]
-            s, e, wgt, owner = _filaments(arrays, seg, a, b, axes)
-            out[p0:p0 + step] += _accumulate(pts, s, e, wgt * currents[owner], owner,
-                                             mirror, has_plane, arrays)
-    return out
+    if compiled is None:
+        compiled = kernel_jit.available()
+    if len(live) and len(points):
+        axes = _width_axes(arrays)
+        half = 0.5 * np.maximum(arrays.width, arrays.thickness)[:, None]
+        seg_lo = np.minimum(arrays.start, arrays.end)[live] - half[live]
+        seg_hi = np.maximum(arrays.start, arrays.end)[live] + half[live]
+        mirror = arrays.mirror_z if images else np.full(len(arrays), np.nan)
+        zmid = 0.5 * (arrays.start[:, 2] + arrays.end[:, 2])
+        # Small blocks of points keep the section orders adaptive (far segments get one
+        # filament); without numba the block also bounds the (points x filaments) arrays.
+        step = POINT_BLOCK if compiled else max(1, BLOCK_PAIRS // max(1, 4 * len(live)))
+        for p0 in range(0, len(points), step):
+            pts = points[p0:p0 + step]
+            dist = _box_distance(seg_lo, seg_hi, pts.min(axis=0), pts.max(axis=0))
+            nw = np.where(arrays.round[live], 1, section_orders(arrays.width[live], dist, tolerance))
+            nt = np.where(arrays.round[live], 1,
+                          section_orders(arrays.thickness[live], dist, tolerance))
+            parts = [_filaments(arrays, live[(nw == a) & (nt == b)], a, b, axes)
+                     for a, b in sorted(set(zip(nw.tolist(), nt.tolist(), strict=True)))]
+            s = np.vstack([q[0] for q in parts])
+            e = np.vstack([q[1] for q in parts])
+            owner = np.concatenate([q[3] for q in parts])
+            w = np.concatenate([q[2] for q in parts]) * currents[owner]
+            if compiled:
+                out[p0:p0 + step] = kernel_jit.field_sum(pts, s, e, w, mirror[owner], zmid[owner])
+            else:
+                out[p0:p0 + step] = _accumulate(pts, s, e, w, mirror[owner], zmid[owner])
+    return out if complex_out else out.real.copy()
 
 
 def _accumulate(pts: np.ndarray, s: np.ndarray, e: np.ndarray, weight: np.ndarray,
-                owner: np.ndarray, mirror: np.ndarray, has_plane: np.ndarray,
-                arrays: SegmentArrays) -> np.ndarray:
-    """Sum over filaments (in chunks) of weight * field, with images and shielding."""
-    out = np.zeros((len(pts), 3), dtype=np.result_type(weight.dtype, np.float64))
+                zm: np.ndarray, zs: np.ndarray) -> np.ndarray:
+    """Sum over filaments (in chunks) of weight x field (P, 3), with the images in
+    the planes at ``zm`` (per filament, NaN: none) and the shielding of the far side
+    (``zs``: the height of the filament's segment)."""
+    out = np.zeros((len(pts), 3), dtype=complex)
     chunk = max(1, BLOCK_PAIRS // max(1, len(pts)))
     for f0 in range(0, len(s), chunk):
         sl = slice(f0, f0 + chunk)
-        own = owner[sl]
         kx, ky, kz = filament_kernel(pts, s[sl], e[sl])
-        plane = has_plane[own]
+        plane = np.isfinite(zm[sl])
         if np.any(plane):
-            zm = mirror[own]
-            zs = 0.5 * (arrays.start[own, 2] + arrays.end[own, 2])
-            same = np.where(plane[None, :], (pts[:, 2:3] - zm[None, :]) * (zs - zm)[None, :] > 0, True)
-            idx = np.flatnonzero(plane)
-            si, ei = s[sl][idx].copy(), e[sl][idx].copy()
-            si[:, 2] = 2.0 * zm[idx] - si[:, 2]
-            ei[:, 2] = 2.0 * zm[idx] - ei[:, 2]
+            z = zm[sl][plane]
+            si, ei = s[sl][plane].copy(), e[sl][plane].copy()
+            si[:, 2] = 2.0 * z - si[:, 2]
+            ei[:, 2] = 2.0 * z - ei[:, 2]
             ix, iy, iz = filament_kernel(pts, si, ei)
-            kx[:, idx] += IMAGE_SIGN * ix
-            ky[:, idx] += IMAGE_SIGN * iy
-            kz[:, idx] += IMAGE_SIGN * iz
-            kx *= same
-            ky *= same
-            kz *= same
+            same = (pts[:, 2:3] - z[None, :]) * (zs[sl][plane] - z)[None, :] > 0
+            kx[:, plane] = (kx[:, plane] + IMAGE_SIGN * ix) * same
+            ky[:, plane] = (ky[:, plane] + IMAGE_SIGN * iy) * same
+            kz[:, plane] = (kz[:, plane] + IMAGE_SIGN * iz) * same
         w = weight[sl]
         out[:, 0] += kx @ w
         out[:, 1] += ky @ w
