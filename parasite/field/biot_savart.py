@@ -56,7 +56,8 @@ SECTION_TOLERANCE = 1e-4
 """Relative error aimed at by the quadrature over a bar's section."""
 
 POINT_BLOCK = 64
-"""Points per block with the compiled kernel (the section orders are chosen per block)."""
+"""Fewest points per block with the compiled kernel (the section orders are chosen
+per block; small boards take larger blocks, up to BLOCK_PAIRS / segments points)."""
 
 MAX_SECTION_ORDER = 24
 """Most Gauss-Legendre filaments across a bar's width (or thickness)."""
@@ -178,7 +179,8 @@ def segment_field(points: np.ndarray, arrays: SegmentArrays, currents: np.ndarra
         zmid = 0.5 * (arrays.start[:, 2] + arrays.end[:, 2])
         # Small blocks of points keep the section orders adaptive (far segments get one
         # filament); without numba the block also bounds the (points x filaments) arrays.
-        step = POINT_BLOCK if compiled else max(1, BLOCK_PAIRS // max(1, 4 * len(live)))
+        step = (max(POINT_BLOCK, BLOCK_PAIRS // len(live)) if compiled
+                else max(1, BLOCK_PAIRS // max(1, 4 * len(live))))
         for p0 in range(0, len(points), step):
             pts = points[p0:p0 + step]
             dist = _box_distance(seg_lo, seg_hi, pts.min(axis=0), pts.max(axis=0))

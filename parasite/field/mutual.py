@@ -84,17 +84,30 @@ def carried(currents: np.ndarray, tolerance: float = CARRY_TOLERANCE) -> np.ndar
     return mag > tolerance * np.where(top > 0, top, 1.0)
 
 
+def _real_product(L: np.ndarray, V: np.ndarray) -> np.ndarray:
+    """``L @ V`` for real ``L`` (N, N) and complex ``V`` (N, m) as one real product
+    (no complex copy of L)."""
+    if not np.iscomplexobj(V):
+        return L @ V
+    m = V.shape[1]
+    P = L @ np.hstack([V.real, V.imag])
+    return P[:, :m] + 1j * P[:, m:]
+
+
 def coupling_matrix(L: np.ndarray, currents: np.ndarray,
                     tolerance: float = CARRY_TOLERANCE) -> CouplingMatrix:
     """Mutual inductance, k and the shared/flux split for every pair of loops.
 
     ``L`` (N, N) H; ``currents`` (n, N) per 1 A of each loop's current. Cost:
-    one product ``L @ currents^T`` (N^2 n) plus, per pair that shares copper,
-    the form on the shared segments only."""
+    one product ``L @ currents^T`` (N^2 n); the shared part of a pair is the
+    form on its shared segments, gathered when they are few, else one more
+    column of a second product (more than N / 8 shared) (``(conj(i_a) . c_b)^T L (i_b . c_a)`` with
+    ``c`` the masks of carried segments), so at most N^2 n (n + 1) / 2 more."""
     L = np.asarray(L, dtype=float)
     C = np.atleast_2d(np.asarray(currents))
     _check(L, C)
-    G = np.conj(C) @ (L @ C.T)  # (n, n) complex: G_ab = i_a^H L i_b
+    n_seg = L.shape[0]
+    G = np.conj(C) @ _real_product(L, C.T)  # (n, n): G_ab = i_a^H L i_b
     mutual, quad = G.real.copy(), G.imag.copy()
     diag = np.diag(mutual)
     scale = np.sqrt(np.outer(diag, diag))
@@ -103,12 +116,23 @@ def coupling_matrix(L: np.ndarray, currents: np.ndarray,
     carry = carried(C, tolerance)
     both = carry.astype(np.int64) @ carry.T.astype(np.int64)
     shared = np.zeros_like(mutual)
+    wide: list[tuple[int, int]] = []
     for a, b in zip(*np.nonzero(both), strict=True):
-        if b < a:
+        if b <= a:  # a loop with itself: all its copper is shared
             continue
         idx = np.flatnonzero(carry[a] & carry[b])
+        if 64 * len(idx) ** 2 > n_seg * n_seg:
+            wide.append((int(a), int(b)))
+            continue
         v = np.conj(C[a, idx]) @ L[np.ix_(idx, idx)] @ C[b, idx]
         shared[a, b] = shared[b, a] = float(np.real(v))
+    shared[np.diag_indices_from(shared)] = diag
+    if wide:
+        U = np.array([np.conj(C[a]) * carry[b] for a, b in wide])
+        V = np.array([C[b] * carry[a] for a, b in wide]).T
+        vals = np.einsum("ij,ji->i", U, _real_product(L, V)).real
+        for (a, b), v in zip(wide, vals, strict=True):
+            shared[a, b] = shared[b, a] = float(v)
     return CouplingMatrix(mutual=mutual, quadrature=quad, k=k, shared=shared, flux=mutual - shared)
 
 

@@ -138,3 +138,28 @@ def test_bad_shapes_are_errors() -> None:
         coupling_matrix(np.eye(4), np.ones((2, 3)))
     with pytest.raises(ParasiteError, match="must be square"):
         coupling_matrix(np.ones((3, 4)), np.ones((1, 4)))
+
+
+@pytest.mark.parametrize("share", [0.02, 0.5], ids=["few shared (gathered)", "many shared (product)"])
+def test_shared_part_is_the_form_on_common_segments(share: float) -> None:
+    """The shared part equals Re(sum over j, k both carried by the two loops of
+    conj(i_a,j) L_jk i_b,k), written out directly here (the definition in the module
+    docstring), whether the code gathers the few common segments or uses its
+    masked product; to 1e-12."""
+    from tests.test_extract_matrix import random_board
+
+    arrays = random_board(2, n_traces=150, planes="one")
+    L = inductance_matrix(arrays)
+    n = len(arrays)
+    rng = np.random.default_rng(11)
+    C = np.zeros((3, n), complex)
+    base = rng.random(n) < share
+    for a in range(3):
+        own = (rng.random(n) < 0.3) | base
+        C[a, own] = rng.normal(size=own.sum()) + 1j * rng.normal(size=own.sum())
+    m = coupling_matrix(L, C)
+    for a in range(3):
+        for b in range(3):
+            both = (C[a] != 0) & (C[b] != 0)
+            ref = np.real(np.conj(C[a, both]) @ L[np.ix_(both, both)] @ C[b, both])
+            assert m.shared[a, b] == pytest.approx(ref, rel=1e-12, abs=1e-24)
