@@ -15,9 +15,9 @@ when both divisions are in phase (every tree of copper, the low-frequency
 limit), and its size says how much the two loops' different frequencies
 matter. For the voltage induced at one frequency, reciprocity gives the
 mutual impedance ``Z_ba = i_b^T (R + j omega L) i_a`` (transpose, not
-conjugate: C. R. Paul, *Inductance: Loop and Partial*, Wiley, 2010, ch. 5,
-and the reciprocity theorem of linear networks), see :func:`mutual_impedance`;
-with real divisions ``Im(Z_ba) / omega = M_ab``.
+conjugate: the reciprocity theorem of linear networks, common practice; exact
+when both divisions are solved on the same copper at that frequency), see
+:func:`mutual_impedance`; with real divisions ``Im(Z_ba) / omega = M_ab``.
 
 Pick-up: an aggressor loop ``a`` whose current changes at ``di/dt`` (A/s)
 induces ``v = M_ab di/dt`` (V) across the open victim loop ``b``, positive
