@@ -19,7 +19,7 @@ try:  # pragma: no cover - depends on the installation
 
     _HAVE_NUMBA = True
 except ImportError:  # pragma: no cover
-    numba = None
+    numba = None  # type: ignore[assignment]
     _HAVE_NUMBA = False
 
 _compiled: Any = None
