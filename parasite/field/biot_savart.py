@@ -35,8 +35,10 @@ face the field is that of the segment plus its image (mirrored geometry,
 current factor -1); a point on the far side of the face is shielded and gets
 nothing from that segment.
 
-Everything is vectorised over (points x filaments) in blocks of at most
-:data:`BLOCK_PAIRS` pairs, so the memory stays bounded whatever the sizes.
+The sum over (points x filaments) runs in the compiled kernel of
+:mod:`parasite.field.kernel_jit` (numba, no temporaries) or, without numba, in
+numpy blocks of at most :data:`BLOCK_PAIRS` pairs; either way the memory stays
+bounded whatever the sizes, and there is no Python loop per point or per pair.
 """
 
 from __future__ import annotations
