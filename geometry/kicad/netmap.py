@@ -76,7 +76,10 @@ def node_name_from(board_net: str, taken: set[str]) -> str:
 def read_pin_map(path: str | Path) -> dict[str, dict[str, str]]:
     """A pin-map side file (TOML): one table per reference designator, pad
     number -> terminal name or 1-based position, e.g. ``[M1]`` ``"1" = "g"``."""
-    import tomllib
+    try:
+        import tomllib
+    except ImportError:  # Python 3.10
+        import tomli as tomllib  # type: ignore[no-redef]
 
     try:
         data: Any = tomllib.loads(Path(path).read_text(encoding="utf-8"))

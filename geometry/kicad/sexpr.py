@@ -57,6 +57,7 @@ def parse_sexpr(text: str, file: str) -> Expr:
     an unterminated string or text after the top-level list."""
     stack: list[Expr] = []
     root: Expr | None = None
+    closed_at = 0
     pos = 0
     line = 1
     n = len(text)
@@ -77,8 +78,10 @@ def parse_sexpr(text: str, file: str) -> Expr:
         line += text.count("\n", start, tok_start)
         if open_:
             if root is not None and not stack:
-                raise BoardError("text after the end of the board's top-level list", file=file,
-                                 line=line)
+                raise BoardError(
+                    f"unbalanced parentheses: a ')' on this line closes the top-level list "
+                    f"'({root.head}' and more lists follow (on line {line})", file=file,
+                    line=closed_at)
             head_m = match(text, m.end())
             if head_m is None or head_m.group(4) is None:
                 raise BoardError("a list must start with a bare token after '('", file=file,
@@ -96,6 +99,7 @@ def parse_sexpr(text: str, file: str) -> Expr:
             done = stack.pop()
             if not stack:
                 root = done
+                closed_at = line
         elif quoted is not None:
             if not stack:
                 raise BoardError("text outside the board's top-level list", file=file, line=line)
