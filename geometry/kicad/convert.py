@@ -154,7 +154,7 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
     draft.net_names = nets
     draft.notes.extend(mapping.notes if mapping else [])
     draft.notes.extend(notes)
-    planes = {p: None for p in opts.planes}
+    planes: dict[str, str | None] = {p: None for p in opts.planes}
     for name in planes:
         if name not in {la.name for la in board.layers}:
             raise BoardError(f"--plane {name}: no such copper layer (the board has "
@@ -177,8 +177,8 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
                     f"zone of net {zone.net!r} has filled copper on {layer}; pours cannot be written "
                     f"to a routes file yet: name the layer with --plane if it is a solid return "
                     f"plane, or leave the fills out with --no-pours", file=board.path, line=zone.line)
-    for name, node in planes.items():
-        if node is None:
+    for name, plane_node in planes.items():
+        if plane_node is None:
             raise BoardError(f"--plane {name}: no filled zone of an imported net on that layer",
                              file=board.path)
     for la in board.layers:
@@ -228,10 +228,9 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
                                    layer_name(v.layers[1]), v.drill, wall, f"{v.kind} via line {v.line}"))
         span = names[names.index(v.layers[0]): names.index(v.layers[1]) + 1]
         for layer in span:
-            for p, w in ends.get((v.net, layer), []):
-                d = math.dist(p, v.at)
-                if 1e-7 < d <= 0.5 * v.size:
-                    stub(v.net, layer, p, v.at, w, f"via line {v.line}")
+            for p, width in ends.get((v.net, layer), []):
+                if 1e-7 < math.dist(p, v.at) <= 0.5 * v.size:
+                    stub(v.net, layer, p, v.at, width, f"via line {v.line}")
 
     # -- pads ---------------------------------------------------------------------------------------
     pad_layer: dict[int, str] = {}  # id(pad) -> layer of its pin
@@ -243,8 +242,7 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
             found = ends.get((pad.net, layer), [])
             if not found:
                 continue
-            pts = np.array([p for p, _ in found])
-            hit = inside_pad(pad, pts)
+            hit = inside_pad(pad, np.array([p for p, _ in found]))
             if not hit.any():
                 continue
             pad_layer.setdefault(id(pad), layer)
@@ -268,9 +266,9 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
                                        f"plated hole of pad {pad.reference}.{pad.number}"))
             pad_layer.setdefault(id(pad), pad.layers[0])
         if id(pad) not in pad_layer:
-            layer = _covering_layer(pad, kept, board)
-            if layer is not None:
-                pad_layer[id(pad)] = layer
+            covering = _covering_layer(pad, kept, board)
+            if covering is not None:
+                pad_layer[id(pad)] = covering
     if mapping is not None:
         _pins(draft, mapping.terminals, nets, pad_layer, frame)
     draft.loops.extend(opts.loops)
