@@ -21,7 +21,8 @@ from dataclasses import dataclass, field
 
 from geometry.kicad.errors import BoardError
 
-_TOKEN = re.compile(r'\s*(?:(\()|(\))|"((?:[^"\\]|\\.)*)"|([^\s()"]+))', re.S)
+# one alternative per kind of token; group 5 counts lines, group 6 is a stray '"'
+_TOKEN = re.compile(r'(\()|(\))|"((?:[^"\\]|\\.)*)"|([^\s()"]+)|(\n)|(")', re.S)
 _ESCAPE = re.compile(r"\\(.)", re.S)
 _ESCAPES = {"n": "\n", "t": "\t", "r": "\r", '"': '"', "\\": "\\"}
 
@@ -44,11 +45,14 @@ class Expr:
 
     def first(self, head: str) -> Expr | None:
         """The first child list with this head, or None."""
-        return next(self.lists(head), None)
+        for it in self.items:
+            if type(it) is Expr and it.head == head:
+                return it
+        return None
 
     def atoms(self) -> list[str]:
         """The atoms among the items (strings and bare words), in order."""
-        return [it for it in self.items if not isinstance(it, Expr)]
+        return [it for it in self.items if type(it) is not Expr]
 
 
 def parse_sexpr(text: str, file: str) -> Expr:
@@ -58,60 +62,54 @@ def parse_sexpr(text: str, file: str) -> Expr:
     stack: list[Expr] = []
     root: Expr | None = None
     closed_at = 0
-    pos = 0
     line = 1
-    n = len(text)
-    match = _TOKEN.match
-    while pos < n:
-        m = match(text, pos)
-        if m is None:
-            rest = text[pos:].lstrip()
-            if not rest:
-                break
-            line += text.count("\n", pos, n - len(rest))
-            raise BoardError("unterminated string (a '\"' without its closing '\"')", file=file,
-                             line=line)
-        start = m.start(0)
-        line += text.count("\n", pos, start)
-        open_, close, quoted, bare = m.groups()
-        tok_start = m.start(m.lastindex or 0)
-        line += text.count("\n", start, tok_start)
-        if open_:
-            if root is not None and not stack:
+    want_head = False
+    for m in _TOKEN.finditer(text):
+        kind = m.lastindex
+        if kind == 5:
+            line += 1
+            continue
+        if want_head:
+            if kind != 4:
+                raise BoardError("a list must start with a bare token after '('", file=file, line=line)
+            expr = Expr(m.group(4), line)
+            if stack:
+                stack[-1].items.append(expr)
+            elif root is not None:
                 raise BoardError(
                     f"unbalanced parentheses: a ')' on this line closes the top-level list "
                     f"'({root.head}' and more lists follow (on line {line})", file=file,
                     line=closed_at)
-            head_m = match(text, m.end())
-            if head_m is None or head_m.group(4) is None:
-                raise BoardError("a list must start with a bare token after '('", file=file,
-                                 line=line)
-            line += text.count("\n", m.end(), head_m.end())
-            expr = Expr(head_m.group(4), line)
-            if stack:
-                stack[-1].items.append(expr)
             stack.append(expr)
-            pos = head_m.end()
-            continue
-        if close:
+            want_head = False
+        elif kind == 1:
+            want_head = True
+        elif kind == 2:
             if not stack:
                 raise BoardError("unbalanced parentheses: ')' closes no list", file=file, line=line)
             done = stack.pop()
             if not stack:
                 root = done
                 closed_at = line
-        elif quoted is not None:
+        elif kind == 3:
+            quoted = m.group(3)
             if not stack:
                 raise BoardError("text outside the board's top-level list", file=file, line=line)
-            value = _ESCAPE.sub(lambda e: _ESCAPES.get(e.group(1), e.group(1)), quoted)
-            stack[-1].items.append(Quoted(value))
+            if "\\" in quoted:
+                quoted = _ESCAPE.sub(lambda e: _ESCAPES.get(e.group(1), e.group(1)), quoted)
+            stack[-1].items.append(Quoted(quoted))
             line += quoted.count("\n")
-        else:
+        elif kind == 4:
             if not stack:
-                raise BoardError(f"text outside the board's top-level list: {bare[:20]!r}",
+                raise BoardError(f"text outside the board's top-level list: {m.group(4)[:20]!r}",
                                  file=file, line=line)
-            stack[-1].items.append(bare)
-        pos = m.end()
+            stack[-1].items.append(m.group(4))
+        else:
+            raise BoardError("unterminated string (a '\"' without its closing '\"')", file=file,
+                             line=line)
+    line = text.count("\n", 0, len(text.rstrip())) + 1  # the last line with text
+    if want_head:
+        raise BoardError("the file ends after '('", file=file, line=line)
     if stack:
         raise BoardError(
             f"the file ends inside the list '({stack[-1].head}' opened on line {stack[-1].line} "
