@@ -119,6 +119,9 @@ def _choose_nets(board: Board, mapping: NetMapping | None, opts: Options) -> tup
     for net in wanted:
         given = opts.nets.get(net) if opts.nets is not None else None
         if given is not None:
+            if mapping is not None and net in mapping.nodes and mapping.nodes[net] != canonical_net(given):
+                raise BoardError(f"--nets {net}={given}: the netlist's terminals put board net {net!r} "
+                                 f"on node {mapping.nodes[net]!r}", file=board.path)
             out[net] = canonical_net(given)
             taken.add(out[net])
         elif mapping is None:

@@ -52,7 +52,7 @@ class Expr:
 
     def atoms(self) -> list[str]:
         """The atoms among the items (strings and bare words), in order."""
-        return [it for it in self.items if type(it) is not Expr]
+        return [it for it in self.items if not isinstance(it, Expr)]
 
 
 def parse_sexpr(text: str, file: str) -> Expr:

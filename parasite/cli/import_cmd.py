@@ -96,6 +96,7 @@ def import_board(board: str, netlist: str | None, pin_map: str | None, output: s
                       arc_tolerance=arc_tolerance * 1e-3, plating=plating * 1e-3, loops=_loops(loops))
     parsed = read_board(board)
     elements = None
+    nl = None
     if netlist is not None:
         from parasite.netlist import read_netlist
 
@@ -104,7 +105,7 @@ def import_board(board: str, netlist: str | None, pin_map: str | None, output: s
     table = read_pin_map(pin_map) if pin_map else None
     text, draft = import_board(parsed, elements, options, table, pin_map, source=board,
                                netlist_name=netlist)
-    _check(text, output)
+    _check(text, output, board, nl)
     write_output(output, text.encode(), inputs)
     for net, node in sorted(draft.net_names.items()):
         click.echo(f"{board}: board net {net!r} -> node {node}", err=True)
@@ -112,9 +113,20 @@ def import_board(board: str, netlist: str | None, pin_map: str | None, output: s
         click.echo(f"{board}: note: {note}", err=True)
 
 
-def _check(text: str, output: str) -> None:
-    """Read the written text back as a routes file: an import the routes
-    reader would refuse is an error here, before anything is written."""
+def _check(text: str, output: str, board: str, netlist: object | None) -> None:
+    """Load the text as the commands will: the routes reader, and with a
+    netlist the pins and the copper graph. An import that would not load is
+    an error here, before anything is written."""
+    from geometry.errors import RoutesError
+    from geometry.graph import build_graph
     from geometry.routes import parse_routes
+    from parasite.pins import resolve_pin_nets
 
-    parse_routes(text.encode(), output if output != "-" else "<import>", "toml")
+    try:
+        routes = parse_routes(text.encode(), output if output != "-" else "<import>", "toml")
+        nets = resolve_pin_nets(routes, netlist) if netlist is not None else []  # type: ignore[arg-type]
+        if netlist is not None:
+            build_graph(routes, nets)
+    except RoutesError as exc:
+        raise RoutesError(f"the imported copper does not load as a routes file ({exc}); the board "
+                          f"may need editing, or import fewer nets with --nets", file=board) from None
