@@ -98,3 +98,37 @@ def test_reader_agrees_with_live_pcbnew(name: str) -> None:
     out = subprocess.run([exe, str(FIXTURES / "pcbnew_reference.py"), "--print", str(FIXTURES / name)],
                          capture_output=True, text=True, timeout=300, check=True).stdout
     _compare(read_board(FIXTURES / name), json.loads(out))
+
+
+def test_fixture_files_are_what_the_generator_writes() -> None:
+    """The committed boards are make_boards.py's output (so they stay in step
+    with the demo; rerun the script and pcbnew_reference.py after a change)."""
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location("make_boards", FIXTURES / "make_boards.py")
+    assert spec is not None and spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    assert (FIXTURES / "buck.kicad_pcb").read_text() == module.buck()
+    assert (FIXTURES / "rc_loop.kicad_pcb").read_text() == module.rc_loop()
+
+
+def test_demo_pins_sit_on_the_board_pads_pcbnew_places() -> None:
+    """Every pin of the hand-written demo routes file (fixtures/demo) lies on
+    a pad that pcbnew places at the same point (KiCad frame: x + 100,
+    100 - y mm, the board's auxiliary origin), on the pin's element: the board
+    draws the demo, checked against KiCad rather than against the importer."""
+    import sys
+
+    if sys.version_info >= (3, 11):
+        import tomllib
+    else:  # Python 3.10
+        import tomli as tomllib
+
+    demo = tomllib.loads((FIXTURES.parent / "demo" / "buck.routes.toml").read_text())
+    ref = json.loads((FIXTURES / "buck.pcbnew.json").read_text())
+    for pin in demo["pin"]:
+        element = pin["terminal"].split(":")[0]
+        x, y = 100 + pin["at"][0], 100 - pin["at"][1]
+        assert any(p["reference"] == element and abs(p["x"] - x) < 1e-3 and abs(p["y"] - y) < 1e-3
+                   for p in ref["pads"]), pin["terminal"]
