@@ -205,7 +205,7 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
         else:
             pts = arc_polyline(t.start, t.mid, t.end, opts.arc_tolerance)
         draft.traces.append(DraftTrace(nets[t.net], layer_name(t.layer), t.width,
-                                       tuple(frame(p) for p in pts), f"{t.net} line {t.line}"))
+                                       tuple(frame(p) for p in pts), f"{t.net}, board line {t.line}"))
     if skipped:
         draft.notes.append(f"{skipped} track(s) of zero length left out")
     ends: dict[tuple[str, str], list[tuple[Point, float]]] = defaultdict(list)
@@ -228,7 +228,8 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
             continue
         wall = opts.plating if opts.plating < 0.5 * v.drill else None
         draft.vias.append(DraftVia(nets[v.net], frame(v.at), layer_name(v.layers[0]),
-                                   layer_name(v.layers[1]), v.drill, wall, f"{v.kind} via line {v.line}"))
+                                   layer_name(v.layers[1]), v.drill, wall,
+                                   f"{v.kind} via, board line {v.line}"))
         span = names[names.index(v.layers[0]): names.index(v.layers[1]) + 1]
         for layer in span:
             for p, width in ends.get((v.net, layer), []):
