@@ -26,6 +26,7 @@ _COMMANDS: dict[str, tuple[str, str]] = {
     "check": ("parasite.cli.check_cmd", "check"),
     "plot": ("parasite.cli.plot_cmd", "plot"),
     "ring": ("parasite.cli.ring_cmd", "ring"),
+    "import": ("parasite.cli.import_cmd", "import_board"),
 }
 
 EXIT_INPUT_ERROR = 1
