@@ -50,6 +50,7 @@ lint: venv
 	$(VENV)/bin/mypy
 
 bench: simulators venv
+	$(PY) -m pip install --quiet -e '.[bench]'
 	$(PY) benchmarks/run_all.py
 
 clean:
