@@ -149,7 +149,7 @@ def test_compiled_and_numpy_paths_agree() -> None:
     (rounding). A contract check between two implementations; the physics is checked
     against the references above."""
     from parasite.field import kernel_jit
-    from tests.test_extract_matrix import random_board
+    from tests.extract.test_extract_matrix import random_board
 
     if not kernel_jit.available():
         pytest.skip("numba is not installed")

@@ -146,7 +146,7 @@ def test_shared_part_is_the_form_on_common_segments(share: float) -> None:
     conj(i_a,j) L_jk i_b,k), written out directly here (the definition in the module
     docstring), whether the code gathers the few common segments or uses its
     masked product; to 1e-12."""
-    from tests.test_extract_matrix import random_board
+    from tests.extract.test_extract_matrix import random_board
 
     arrays = random_board(2, n_traces=150, planes="one")
     L = inductance_matrix(arrays)

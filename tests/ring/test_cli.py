@@ -22,7 +22,7 @@ from parasite.cli import main
 
 pytestmark = pytest.mark.ngspice
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "fixtures" / "demo"
 L_TRUE, R_TRUE = 3.2e-9, 0.45  # fixtures/demo/make_measured.py
 

@@ -19,7 +19,7 @@ from parasite.errors import MeasurementError
 from parasite.ring.metrics import ring_metrics
 from parasite.ring.scope_csv import parse_scope_csv, read_scope_csv
 
-SCOPE = Path(__file__).resolve().parents[1] / "fixtures" / "scope"
+SCOPE = Path(__file__).resolve().parents[2] / "fixtures" / "scope"
 T = np.arange(-100, 300) * 1e-9
 
 

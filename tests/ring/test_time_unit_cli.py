@@ -21,7 +21,7 @@ from parasite.cli import main
 
 pytestmark = pytest.mark.ngspice
 
-DEMO = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
+DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 MEASURED = DEMO / "buck.measured.csv"
 
 

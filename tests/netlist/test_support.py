@@ -14,8 +14,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-FIXTURES = Path(__file__).resolve().parent.parent / "fixtures" / "netlists"
-DEMO = Path(__file__).resolve().parent.parent / "fixtures" / "demo"
+FIXTURES = Path(__file__).resolve().parents[2] / "fixtures" / "netlists"
+DEMO = Path(__file__).resolve().parents[2] / "fixtures" / "demo"
 NGSPICE = shutil.which("ngspice")
 
 needs_ngspice = pytest.mark.skipif(NGSPICE is None, reason="ngspice is not installed")
