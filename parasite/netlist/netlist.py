@@ -219,6 +219,7 @@ class Netlist:
         accepted = (
             f"names {', '.join(names)} or positions 1..{len(lay.spans)}"
             if lay.spans
+            else f"none: {lay.opaque}" if lay.opaque
             else "none: this element has no nodes"
         )
         raise NetlistError(
@@ -241,7 +242,9 @@ class Netlist:
             names = {"0"} | set(self._result.global_nodes)
             for card in self._result.elements:
                 try:
-                    spans = list(self._layout(card).spans)
+                    lay = self._layout(card)
+                    # a card of unknown form: every field that could be a node
+                    spans = candidate_spans(card.tokens) if lay.opaque else list(lay.spans)
                 except NetlistError:
                     spans = candidate_spans(card.tokens)
                 names.update(canonical_node(card.text.text[a:b]) for a, b in spans)

@@ -22,7 +22,7 @@ from parasite.cli import main
 from parasite.errors import NetlistError, ParasiteError
 from parasite.netlist import parse_netlist, read_netlist
 
-from ..test_netlist_support import FIXTURES, needs_ngspice, run_deck
+from .test_netlist_support import FIXTURES, needs_ngspice, run_deck
 
 PSPICE = FIXTURES / "pspice"
 DECKS = sorted(PSPICE.glob("*.cir"))
@@ -208,7 +208,9 @@ def test_copper_beside_an_unknown_form_and_a_pin_on_it(tmp_path: Path) -> None:
     untouched; a pin on one of its terminals is an error that names it."""
     from parasite.augment import augment_files
 
-    from ..test_augment_ngspice import HEAD, _pin, _trace
+    from tests.boards import ONE_LAYER as HEAD
+    from tests.boards import pin as _pin
+    from tests.boards import trace as _trace
 
     odd = "U9 LOGICEXP(2,1) $G_DPWR $G_DGND a b y D0 IO"
     net = tmp_path / "c.cir"
@@ -240,3 +242,15 @@ def test_digital_primitives_in_an_included_library(tmp_path: Path) -> None:
     assert any(w.startswith(f"{tmp_path / 'gates.lib'}:2: warning: U1 is a PSpice-style")
                for w in net.warnings), net.warnings
     assert "$g_dpwr" in net.node_names()
+
+
+def test_unknown_form_fields_count_as_node_names_and_its_reason_is_given() -> None:
+    """A card whose nodes cannot be told: every field that could be a node counts
+    as a taken node name (generated names never collide with one), and a pin on
+    it is refused with the reason the reader found (common practice: a superset
+    of names is the safe side)."""
+    text = b"t\nU1 LOGICEXP(2,1) $G_DPWR $G_DGND a b y dly io_std\nR1 a 0 1k\n.end\n"
+    net = parse_netlist(text, "x.cir", Path("."))
+    assert {"y", "dly", "io_std"} <= net.node_names()
+    with pytest.raises(NetlistError, match=r"x\.cir:2: .*U1 has no terminal '1'; accepted: none: .*LOGICEXP"):
+        net.terminal_index("U1", "1")
