@@ -208,7 +208,7 @@ class Netlist:
         position such as ``"2"``."""
         card = self._card(name)
         lay = self._layout(card)
-        want = ascii_lower(terminal.strip())
+        want = ascii_lower(terminal.strip(" \t"))  # SPICE blanks only: a name may hold other control bytes
         if want in lay.terminal_names:
             return lay.terminal_names.index(want)
         if want in lay.aliases:
