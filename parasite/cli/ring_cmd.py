@@ -79,7 +79,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
 
     rule: str | int = edge_rule.strip().lower()
     if rule not in ("order", "last"):
-        if not str(rule).isdigit() or int(rule) < 1:
+        if not str(rule).isdecimal() or int(rule) < 1:
             raise click.BadParameter(f"{edge_rule!r}: give 'order', 'last' or an edge number "
                                      "(1, 2, ...)", param_hint="--edge")
         rule = int(rule)

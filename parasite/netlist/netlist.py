@@ -213,7 +213,7 @@ class Netlist:
             return lay.terminal_names.index(want)
         if want in lay.aliases:
             return lay.aliases[want]
-        if want.isdigit() and 1 <= int(want) <= len(lay.spans):
+        if want.isdecimal() and 1 <= int(want) <= len(lay.spans):
             return int(want) - 1
         names = [*lay.terminal_names, *(a for a in lay.aliases if a not in lay.terminal_names)]
         accepted = (
