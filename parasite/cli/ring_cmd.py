@@ -73,7 +73,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
     energy, large currents). Follow local codes and licensed practice. The
     numbers are estimates, to be confirmed by measurement.
     """
-    from parasite.outputs import check_output_path, write_output
+    from parasite.outputs import check_output_path, check_outputs, write_outputs
     from parasite.ring.analyse import analyse_ring
     from parasite.ring.report import format_ring_text, ring_json
 
@@ -92,7 +92,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
             picture = plot_format(plot_path)
         except ValueError as exc:
             raise click.BadParameter(str(exc), param_hint="--plot") from None
-        check_output_path(plot_path, inputs + [output])
+    check_outputs([plot_path, output] if plot_path is not None else [output], inputs)
     progress = None if quiet else _progress(tran_of(netlist))
     try:
         result = analyse_ring(
@@ -110,48 +110,18 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
     for key, sim in result.report["simulations"].items():
         for w in sim.get("warnings", []):
             click.echo(f"{netlist}: ngspice ({key}): {w}", err=True)
+    items = []
     if plot_path is not None:
         from parasite.ring.plot import ring_figure
 
-        write_output(plot_path, ring_figure(result, fmt=picture), inputs)
+        items.append((plot_path, ring_figure(result, fmt=picture)))
     if fmt == "json":
         text = ring_json(result.report)
     else:
         text = format_ring_text(result.report, all_edges=all_edges)
-    write_output(output, text.encode(), inputs)
+    items.append((output, text.encode()))
+    if netlist != "-":  # the files the netlist includes are inputs too
+        from parasite.netlist import read_netlist
 
-
-def tran_of(netlist: str) -> float | None:
-    from parasite.ring.analyse import tran_stop
-
-    try:
-        with open(netlist, "rb") as fh:
-            return tran_stop(fh.read())
-    except OSError:
-        return None
-
-
-class _progress:
-    """Simulated time against the ``.tran`` stop time, on standard error when it
-    is a terminal and the run takes more than a second."""
-
-    def __init__(self, stop: float | None) -> None:
-        from parasite.progress import progress_reporter
-
-        self.stop = stop
-        self.line: Any = progress_reporter(False, sys.stderr, label="simulated ns")
-        self.stage = ""
-
-    def __call__(self, stage: str, t: float) -> None:
-        if self.line is None:
-            return
-        if stage != self.stage:
-            self.line.close()
-            self.line.label = f"{stage}: simulated ns"
-            self.stage = stage
-        total = int(round(self.stop * 1e9)) if self.stop else 0
-        self.line(int(t * 1e9), total)
-
-    def close(self) -> None:
-        if self.line is not None:
-            self.line.close()
+        inputs += [str(f) for f in read_netlist(netlist).included_files]
+    write_outputs(items, inputs)

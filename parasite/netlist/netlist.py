@@ -86,6 +86,12 @@ class Netlist:
         self._node_names: set[str] | None = None
 
     @property
+    def included_files(self) -> list[Path]:
+        """Every file that ``.include`` / ``.lib`` cards read, resolved (inputs
+        that no output may overwrite)."""
+        return list(self._result.files)
+
+    @property
     def title(self) -> str:
         """The first line of the main file (ngspice's title line)."""
         return self._result.title
