@@ -113,3 +113,26 @@ def test_toml_error_at_end_of_document_names_a_line(tmp_path):
     r = _augment(tmp_path, board_routes() + '[[pin]]\nterminal = "')
     assert r.code == 1 and not r.written
     assert r.stderr.startswith("b.routes.toml:") and r.stderr.split(":")[1].strip().isdigit()
+
+
+def test_a_non_finite_self_term_names_the_piece(tmp_path):
+    """The check behind "the inductance matrix has a non-positive or non-finite
+    self term": with the board's own extraction and one self term made NaN, the
+    error names the routes entry (key path and line) of that piece."""
+    import numpy as np
+
+    from parasite.errors import ExtractionError
+    from parasite.pipeline import check_finite, extract, load_inputs
+
+    put(tmp_path, "b.cir", BOARD_CIR)
+    put(tmp_path, "b.routes.toml", board_routes())
+    inputs = load_inputs(str(tmp_path / "b.cir"), str(tmp_path / "b.routes.toml"))
+    ex = extract(inputs)
+    L = ex.L.copy()
+    L[0, 0] = np.nan
+    with pytest.raises(ExtractionError) as err:
+        check_finite(inputs, L, ex.R)
+    text = str(err.value)
+    assert "trace[0]" in text and "b.routes.toml:" in text
+    line = int(text.split("b.routes.toml:")[1].split(":")[0])
+    assert (tmp_path / "b.routes.toml").read_text().splitlines()[line - 1].startswith("[[trace]]")
