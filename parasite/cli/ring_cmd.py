@@ -125,3 +125,39 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
 
         inputs += [str(f) for f in read_netlist(netlist).included_files]
     write_outputs(items, inputs)
+
+
+def tran_of(netlist: str) -> float | None:
+    from parasite.ring.analyse import tran_stop
+
+    try:
+        with open(netlist, "rb") as fh:
+            return tran_stop(fh.read())
+    except OSError:
+        return None
+
+
+class _progress:
+    """Simulated time against the ``.tran`` stop time, on standard error when it
+    is a terminal and the run takes more than a second."""
+
+    def __init__(self, stop: float | None) -> None:
+        from parasite.progress import progress_reporter
+
+        self.stop = stop
+        self.line: Any = progress_reporter(False, sys.stderr, label="simulated ns")
+        self.stage = ""
+
+    def __call__(self, stage: str, t: float) -> None:
+        if self.line is None:
+            return
+        if stage != self.stage:
+            self.line.close()
+            self.line.label = f"{stage}: simulated ns"
+            self.stage = stage
+        total = int(round(self.stop * 1e9)) if self.stop else 0
+        self.line(int(t * 1e9), total)
+
+    def close(self) -> None:
+        if self.line is not None:
+            self.line.close()

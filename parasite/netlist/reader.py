@@ -35,6 +35,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from geometry.limits import MAX_INCLUDE_DEPTH, MAX_SUBCKT_DEPTH
 from parasite.errors import NetlistError
 from parasite.netlist.digital import primitive
 from parasite.netlist.kinds import LayoutError, layout
@@ -50,8 +51,6 @@ from parasite.netlist.lines import (
 from parasite.netlist.names import canonical_node
 from parasite.netlist.records import Model
 from parasite.netlist.tokens import CardText, Token, tokenize
-
-from geometry.limits import MAX_INCLUDE_DEPTH, MAX_SUBCKT_DEPTH
 
 MAX_SHOWN = 100  # characters of a card shown in an error message
 
