@@ -128,7 +128,7 @@ def _parse_copper(ctx: Context, raw: Any) -> Copper:
     t = ctx.table(raw, path, _COPPER_KEYS)
     d = Copper()
     rho = (ctx.checked(t["resistivity"], path + ("resistivity",), *RESISTIVITY_RANGE,
-                       "a resistivity in ohm*m") if "resistivity" in t else d.resistivity)
+                       "a positive number in ohm*m") if "resistivity" in t else d.resistivity)
     tc = (ctx.checked(t["temperature_coefficient"], path + ("temperature_coefficient",),
                       -MAX_TEMPERATURE_COEFFICIENT, MAX_TEMPERATURE_COEFFICIENT, "a number in 1/K")
           if "temperature_coefficient" in t else d.temperature_coefficient)

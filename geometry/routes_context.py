@@ -90,6 +90,8 @@ class Context:
             x = float(value)
         except OverflowError:
             x = math.inf
+        if not math.isfinite(x) and isinstance(value, float):
+            self.fail(path, f"must be {what} (finite); got {value!r}")
         if not math.isfinite(x) or abs(x) > MAX_MAGNITUDE or (x != 0 and abs(x) < MIN_MAGNITUDE):
             self.fail(path, f"must be {what}, finite and of magnitude between "
                             f"{MIN_MAGNITUDE:g} and {MAX_MAGNITUDE:g} (or 0); got {_num(value)}")
@@ -102,8 +104,8 @@ class Context:
         x = self.number(value, path, what) * scale
         if not (low < x if low_open else low <= x) or not x <= high:
             lo = "(" if low_open else "["
-            self.fail(path, f"must be {what} in {lo}{low / scale:g}, {high / scale:g}]; "
-                            f"got {_num(value)}")
+            self.fail(path, f"must be {what}; got {_num(value)} (accepted: "
+                            f"{lo}{low / scale:g}, {high / scale:g}])")
         return x
 
     def coordinate(self, value: Any, path: KeyPath) -> float:
