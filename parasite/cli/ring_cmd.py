@@ -30,7 +30,7 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
               show_default=True, help="How the metrics are printed.")
 @click.option("-o", "--output", default="-", show_default=True,
               help="Where the metrics go: a file, or - for standard output.")
-@click.option("--band", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True),
+@click.option("--band", type=SpiceNumber(minimum=0.0, maximum=1.0, max_exclusive=True),
               default=0.05, show_default=True,
               help="Settling band, as a fraction of each edge's step.")
 @click.option("--capacitance", type=SpiceNumber(minimum=0.0), default=None,
@@ -50,7 +50,8 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
                    "(the first measured edge with simulated edge N, then in order).")
 @click.option("--all-edges", is_flag=True, help="Print every simulated edge, not the last of "
               "each direction.")
-@click.option("--timeout", type=click.FloatRange(min=1.0), default=600.0, show_default=True,
+@click.option("--timeout", type=SpiceNumber(minimum=1.0, exclusive=False, maximum=1e6),
+              default=600.0, show_default=True,
               help="Stop a simulation after this many seconds.")
 @min_coupling_opt
 @frequency_opt

@@ -136,3 +136,20 @@ def test_a_non_finite_self_term_names_the_piece(tmp_path):
     assert "trace[0]" in text and "b.routes.toml:" in text
     line = int(text.split("b.routes.toml:")[1].split(":")[0])
     assert (tmp_path / "b.routes.toml").read_text().splitlines()[line - 1].startswith("[[trace]]")
+
+
+@pytest.mark.parametrize("args", [
+    ("ring", "b.cir", "b.routes.toml", "--node", "a", "--band", "nan"),
+    ("ring", "b.cir", "b.routes.toml", "--node", "a", "--timeout", "nan"),
+    ("import", "board.kicad_pcb", "--arc-tolerance", "nan", "-o", "x.routes.toml"),
+    ("import", "board.kicad_pcb", "--plating", "inf", "-o", "x.routes.toml"),
+])
+def test_nan_in_other_commands_options_is_a_usage_error(tmp_path, args):
+    """click's FloatRange lets NaN through (every comparison with NaN is
+    false); these options now refuse it as a wrong command line (exit 2)."""
+    put(tmp_path, "b.cir", BOARD_CIR)
+    put(tmp_path, "b.routes.toml", board_routes())
+    put(tmp_path, "board.kicad_pcb", "(kicad_pcb)\n")
+    r = run_cli(tmp_path, *args)
+    assert r.code == 2, r.stderr
+    assert not r.written
