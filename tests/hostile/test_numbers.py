@@ -153,3 +153,13 @@ def test_nan_in_other_commands_options_is_a_usage_error(tmp_path, args):
     r = run_cli(tmp_path, *args)
     assert r.code == 2, r.stderr
     assert not r.written
+
+
+def test_a_singular_matrix_error_names_the_routes_file(tmp_path):
+    """Found by the fuzz suite: one via written twice at one place made the
+    matrix singular, and the error named no file ('<input>')."""
+    via = ('[[via]]\nnet = "0"\nat = [30, 0]\nfrom = "top"\nto = "gnd"\ndiameter = 0.3\n\n')
+    r = _augment(tmp_path, board_routes(via + via))
+    assert r.code in (0, 1)
+    if r.code == 1:
+        assert r.stderr.startswith("b.routes.toml") and not r.written
