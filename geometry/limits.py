@@ -38,6 +38,9 @@ MAX_ENTRIES_PER_KIND = 20_000
 """``[[trace]]``, ``[[pin]]``, ... entries of one kind in one file."""
 MAX_ROUTES_ARRAYS = 400_000
 """Arrays (``[``) in a routes file, counted before it is parsed: 200,000 points."""
+MAX_PIECES = 10_000
+"""Pieces of copper (segments, and pour cells) of one board: the inductance
+matrix of N pieces takes 8 N^2 bytes (800 MB at the limit)."""
 MAX_INCLUDE_DEPTH = 32
 """``.include`` / ``.lib`` files inside each other."""
 MAX_SUBCKT_DEPTH = 64

@@ -54,7 +54,22 @@ def inputs_of(netlist: Netlist, routes: Routes, netlist_path: str, routes_path: 
 
     pins = resolve_pins(routes, netlist)
     graph = build_graph(routes, pins.nets, anchor_pins=pins.anchor_pins)
+    check_size(graph, routes_path)
     return Inputs(netlist, routes, graph, netlist_path, routes_path)
+
+
+def check_size(graph: CopperGraph, routes_path: str) -> None:
+    """Refuse a board of more pieces than :data:`geometry.limits.MAX_PIECES`,
+    before the N x N matrix is computed."""
+    from geometry.errors import RoutesError
+    from geometry.limits import MAX_PIECES
+
+    n = len(graph.segments)
+    if n > MAX_PIECES:
+        raise RoutesError(f"the copper makes {n} pieces; at most {MAX_PIECES} are accepted (their "
+                          f"inductance matrix would take {8 * n * n / 1e9:.1f} GB; a limit far "
+                          f"above any real board, see 'Limits' in docs/routes-file.md)",
+                          file=routes_path)
 
 
 def load_inputs(netlist_path: str, routes_path: str) -> Inputs:
