@@ -109,7 +109,7 @@ def _spice_value(ctx: Context, value: Any, path: KeyPath, unit: str) -> float:
         x = ctx.number(value, path, what)
     if x <= 0:
         ctx.fail(path, f"must be {what}; got {value!r}")
-    return x
+    return ctx.number(x, path, what)  # the shared range of every number
 
 
 def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:

@@ -42,8 +42,7 @@ def _point3(ctx: Context, value: Any, path: KeyPath) -> Point3:
     what = f"a point in space [x, y, z] in {ctx.units}"
     if not isinstance(value, list) or len(value) != 3:
         ctx.fail(path, f"must be {what}; got {_describe(value)}")
-    x, y, z = (ctx.number(c, path + (k,), f"a coordinate in {ctx.units}") * ctx.scale
-               for k, c in enumerate(value))
+    x, y, z = (ctx.coordinate(c, path + (k,)) for k, c in enumerate(value))
     return (x, y, z)
 
 
@@ -113,6 +112,9 @@ def parse_probe_entry(ctx: Context, raw: Any, index: int) -> Probe:
     ground = _probe_contact(ctx, t["ground"], path + ("ground",))
     tip_lead = _probe_lead(ctx, t["tip_lead"], path + ("tip_lead",), tip, "tip")
     ground_lead = _probe_lead(ctx, t["ground_lead"], path + ("ground_lead",), ground, "ground")
+    if tip.layer == ground.layer and math.dist(tip.at, ground.at) <= ctx.snap:
+        ctx.fail(path + ("ground", "at"), "the ground contact is where the tip is; a probe "
+                                          "reads between two different places")
     instrument = _instrument(ctx, t["instrument"], path + ("instrument",))
     return Probe(name=name, tip=tip, ground=ground, tip_lead=tip_lead, ground_lead=ground_lead,
                  instrument=instrument, index=index, line=ctx.lines.line_of(path))

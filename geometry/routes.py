@@ -32,7 +32,15 @@ from pathlib import Path
 from typing import Any, Literal
 
 from geometry.errors import RoutesError
-from geometry.locate import KeyPath, format_path, json_lines, toml_lines
+from geometry.limits import (
+    MAX_ENTRIES_PER_KIND,
+    MAX_NESTING,
+    MAX_ROUTES_ARRAYS,
+    MAX_TEMPERATURE_COEFFICIENT,
+    RESISTIVITY_RANGE,
+    TEMPERATURE_RANGE_C,
+)
+from geometry.locate import KeyPath, LineMap, format_path, json_lines, toml_lines
 from geometry.model import (
     UNIT_SCALE,
     Copper,
@@ -119,22 +127,18 @@ def _parse_copper(ctx: Context, raw: Any) -> Copper:
     path: KeyPath = ("copper",)
     t = ctx.table(raw, path, _COPPER_KEYS)
     d = Copper()
-    rho = d.resistivity
-    if "resistivity" in t:
-        rho = ctx.number(t["resistivity"], path + ("resistivity",), "a positive number in ohm*m")
-        if rho <= 0:
-            ctx.fail(path + ("resistivity",), f"must be a positive number in ohm*m; got {rho:g}")
-    tc = (ctx.number(t["temperature_coefficient"], path + ("temperature_coefficient",),
-                     "a number in 1/K") if "temperature_coefficient" in t
-          else d.temperature_coefficient)
-    tref = (ctx.number(t["reference_temperature"], path + ("reference_temperature",),
-                       "a temperature in degC") if "reference_temperature" in t
-            else d.reference_temperature)
-    temp = (ctx.number(t["temperature"], path + ("temperature",), "a temperature in degC")
-            if "temperature" in t else d.temperature)
-    for key, val in (("reference_temperature", tref), ("temperature", temp)):
-        if val <= -273.15:
-            ctx.fail(path + (key,), f"must be a temperature above -273.15 degC; got {val:g}")
+    rho = (ctx.checked(t["resistivity"], path + ("resistivity",), *RESISTIVITY_RANGE,
+                       "a positive number in ohm*m") if "resistivity" in t else d.resistivity)
+    tc = (ctx.checked(t["temperature_coefficient"], path + ("temperature_coefficient",),
+                      -MAX_TEMPERATURE_COEFFICIENT, MAX_TEMPERATURE_COEFFICIENT, "a number in 1/K")
+          if "temperature_coefficient" in t else d.temperature_coefficient)
+    temps = {}
+    for key, default in (("reference_temperature", d.reference_temperature),
+                         ("temperature", d.temperature)):
+        temps[key] = (ctx.checked(t[key], path + (key,), *TEMPERATURE_RANGE_C,
+                                  "a temperature in degC", low_open=True)
+                      if key in t else default)
+    tref, temp = temps["reference_temperature"], temps["temperature"]
     c = Copper(resistivity=rho, temperature_coefficient=tc, reference_temperature=tref,
                temperature=temp)
     if c.resistivity_at_temperature <= 0:
@@ -191,7 +195,7 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
     parsed: dict[str, list[Any]] = {}
     for kind, parser in ENTRY_PARSERS.items():
         raw = data.get(kind, [])
-        items = ctx.array(raw, (kind,), f"[[{kind}]] tables")
+        items = ctx.array(raw, (kind,), f"[[{kind}]] tables", limit=MAX_ENTRIES_PER_KIND)
         parsed[kind] = [parser(ctx, item, i) for i, item in enumerate(items)]
     traces: list[Trace] = parsed["trace"]
     vias: list[Via] = parsed["via"]
@@ -239,6 +243,18 @@ def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes
                           file=name, line=line) from None
     if text.startswith("\ufeff"):
         text = text[1:]
+    _check_size(data, name)
+    try:
+        obj, lines = _decode(text, name, fmt)
+    except RecursionError:
+        raise RoutesError(f"tables or arrays are nested deeper than the reader can follow; at "
+                          f"most {MAX_NESTING} levels are accepted", file=name) from None
+    _check_depth(obj, name, lines)
+    return _build(obj, Context(file=name, lines=lines))
+
+
+def _decode(text: str, name: str, fmt: str) -> tuple[Any, LineMap]:
+    """The parsed object and its line map (TOML or JSON)."""
     if fmt == "toml":
         try:
             obj: Any = tomllib.loads(text)
@@ -248,7 +264,12 @@ def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes
             if line is None:
                 m = re.search(r"line (\d+)", msg)
                 line = int(m.group(1)) if m else None
+            if line is None and "end of document" in msg:
+                line = text.count("\n") + 1
             raise RoutesError(f"not valid TOML: {msg}", file=name, line=line) from None
+        except ValueError as exc:  # an integer beyond Python's digit limit
+            raise RoutesError(f"not a number this reader accepts: {exc}", file=name,
+                              line=_long_digits_line(text)) from None
         lines = toml_lines(text)
     elif fmt == "json":
         try:
@@ -256,6 +277,9 @@ def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes
         except json.JSONDecodeError as exc:
             raise RoutesError(f"not valid JSON: {exc.msg} (column {exc.colno})", file=name,
                               line=exc.lineno) from None
+        except ValueError as exc:  # an integer beyond Python's digit limit
+            raise RoutesError(f"not a number this reader accepts: {exc}", file=name,
+                              line=_long_digits_line(text)) from None
         lines = json_lines(text)
         if lines.duplicates:
             path, line = lines.duplicates[0]
@@ -263,7 +287,36 @@ def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes
                               file=name, line=line, key=format_path(path))
     else:
         raise ValueError(f"unknown routes format {fmt!r}")
-    return _build(obj, Context(file=name, lines=lines))
+    return obj, lines
+
+
+def _long_digits_line(text: str) -> int | None:
+    m = re.search(r"\d{1000}", text)
+    return text.count("\n", 0, m.start()) + 1 if m else None
+
+
+def _check_size(data: bytes, name: str) -> None:
+    """Refuse, before parsing, a file with more arrays than any board needs."""
+    n = data.count(b"[")
+    if n > MAX_ROUTES_ARRAYS:
+        raise RoutesError(f"the file holds {n} arrays ('['); at most {MAX_ROUTES_ARRAYS} are "
+                          f"accepted (a limit far above any real board, see 'Limits' in "
+                          f"docs/routes-file.md)", file=name)
+
+
+def _check_depth(obj: Any, name: str, lines: LineMap) -> None:
+    """Refuse tables and arrays nested deeper than :data:`MAX_NESTING` (iteratively)."""
+    stack: list[tuple[Any, KeyPath]] = [(obj, ())]
+    while stack:
+        value, path = stack.pop()
+        if len(path) > MAX_NESTING:
+            raise RoutesError(f"tables or arrays nested {len(path)} deep; at most {MAX_NESTING} "
+                              f"levels are accepted", file=name, line=lines.line_of(path[:8]),
+                              key=format_path(path[:8]) + "...")
+        if isinstance(value, dict):
+            stack.extend((v, path + (k,)) for k, v in value.items())
+        elif isinstance(value, list):
+            stack.extend((v, path + (i,)) for i, v in enumerate(value))
 
 
 def routes_format(path: str | Path) -> Literal["toml", "json"]:

@@ -13,6 +13,13 @@ from dataclasses import dataclass, field
 from typing import Any, NoReturn
 
 from geometry.errors import RoutesError
+from geometry.limits import (
+    MAX_LENGTH_M,
+    MAX_MAGNITUDE,
+    MAX_POINTS_PER_ENTRY,
+    MIN_MAGNITUDE,
+    MIN_SIZE_M,
+)
 from geometry.locate import KeyPath, LineMap, format_path
 from geometry.model import (
     Layer,
@@ -63,19 +70,48 @@ class Context:
                 self.fail(path, f"missing required key {k!r} (accepted keys: {', '.join(keys)})")
         return value
 
-    def array(self, value: Any, path: KeyPath, what: str) -> list[Any]:
+    def array(self, value: Any, path: KeyPath, what: str,
+              limit: int = MAX_POINTS_PER_ENTRY) -> list[Any]:
+        """An array of at most ``limit`` items (:mod:`geometry.limits`)."""
         if not isinstance(value, list):
             self.fail(path, f"must be an array of {what}; got {_describe(value)}")
+        if len(value) > limit:
+            self.fail(path, f"holds {len(value)} {what}; at most {limit} are accepted here "
+                            f"(a limit far above any real board, see 'Limits' in "
+                            f"docs/routes-file.md)")
         return value
 
     # -- scalars --------------------------------------------------------
     def number(self, value: Any, path: KeyPath, what: str = "a number") -> float:
+        """A finite number of magnitude within [1e-30, 1e30] (or 0)."""
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             self.fail(path, f"must be {what}; got {_describe(value)}")
-        x = float(value)
-        if not math.isfinite(x):
+        try:
+            x = float(value)
+        except OverflowError:
+            x = math.inf
+        if not math.isfinite(x) and isinstance(value, float):
             self.fail(path, f"must be {what} (finite); got {value!r}")
+        if not math.isfinite(x) or abs(x) > MAX_MAGNITUDE or (x != 0 and abs(x) < MIN_MAGNITUDE):
+            self.fail(path, f"must be {what}, finite and of magnitude between "
+                            f"{MIN_MAGNITUDE:g} and {MAX_MAGNITUDE:g} (or 0); got {_num(value)}")
         return x
+
+    def checked(self, value: Any, path: KeyPath, low: float, high: float,
+                what: str = "a number", *, low_open: bool = False, scale: float = 1.0) -> float:
+        """A number in ``[low, high]`` (``(low, high]`` with ``low_open``), both in
+        SI, after multiplying by ``scale``; the shared check of every range."""
+        x = self.number(value, path, what) * scale
+        if not (low < x if low_open else low <= x) or not x <= high:
+            lo = "(" if low_open else "["
+            self.fail(path, f"must be {what}; got {_num(value)} (accepted: "
+                            f"{lo}{low / scale:g}, {high / scale:g}])")
+        return x
+
+    def coordinate(self, value: Any, path: KeyPath) -> float:
+        """A coordinate in the file's units, in metres, within +-10 m."""
+        return self.checked(value, path, -MAX_LENGTH_M, MAX_LENGTH_M,
+                            f"a coordinate in {self.units}", scale=self.scale)
 
     def length(self, value: Any, path: KeyPath, *, positive: bool = False,
                non_negative: bool = False) -> float:
@@ -88,7 +124,8 @@ class Context:
             self.fail(path, f"must be {what}; got {_num(value)}")
         if non_negative and x < 0:
             self.fail(path, f"must be {what}; got {_num(value)}")
-        return x * self.scale
+        low = MIN_SIZE_M if positive else (0.0 if non_negative else -MAX_LENGTH_M)
+        return self.checked(value, path, low, MAX_LENGTH_M, what, scale=self.scale)
 
     def string(self, value: Any, path: KeyPath, what: str = "a string") -> str:
         if not isinstance(value, str):
@@ -108,9 +145,7 @@ class Context:
         what = f"a point [x, y] in {self.units}"
         if not isinstance(value, list) or len(value) != 2:
             self.fail(path, f"must be {what}; got {_describe(value)}")
-        x = self.number(value[0], path + (0,), f"a coordinate in {self.units}") * self.scale
-        y = self.number(value[1], path + (1,), f"a coordinate in {self.units}") * self.scale
-        return (x, y)
+        return (self.coordinate(value[0], path + (0,)), self.coordinate(value[1], path + (1,)))
 
     def layer(self, value: Any, path: KeyPath) -> str:
         name = self.string(value, path, "a layer name")
@@ -150,4 +185,9 @@ def _describe(value: Any) -> str:
 
 
 def _num(value: Any) -> str:
-    return f"{value:g}" if isinstance(value, float) else str(value)
+    if isinstance(value, float):
+        return f"{value:g}"
+    if isinstance(value, int) and not isinstance(value, bool):
+        return (str(value) if abs(value) < 10**40
+                else f"an integer of about {int(value.bit_length() * 0.30103) + 1} digits")
+    return str(value)

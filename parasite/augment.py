@@ -75,11 +75,17 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None) -> Au
 
 def _run(inputs: Inputs, min_coupling: float | None, frequency: float | None,
          keep_segments: bool, progress: Any) -> AugmentResult:
+    from parasite.errors import ParasiteError
     from parasite.pipeline import extract
 
-    extraction = extract(inputs, frequency=frequency, progress=progress)
-    return augment(extraction, AugmentOptions(min_coupling=min_coupling,
-                                              keep_segments=keep_segments))
+    try:
+        extraction = extract(inputs, frequency=frequency, progress=progress)
+        return augment(extraction, AugmentOptions(min_coupling=min_coupling,
+                                                  keep_segments=keep_segments))
+    except ParasiteError as exc:
+        if exc.file is None:  # the copper is the routes file's: name it
+            exc.file = inputs.routes_path
+        raise
 
 
 def augment_files(netlist_path: str, routes_path: str, *, min_coupling: float | None = None,

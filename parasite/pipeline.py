@@ -54,7 +54,22 @@ def inputs_of(netlist: Netlist, routes: Routes, netlist_path: str, routes_path: 
 
     pins = resolve_pins(routes, netlist)
     graph = build_graph(routes, pins.nets, anchor_pins=pins.anchor_pins)
+    check_size(graph, routes_path)
     return Inputs(netlist, routes, graph, netlist_path, routes_path)
+
+
+def check_size(graph: CopperGraph, routes_path: str) -> None:
+    """Refuse a board of more pieces than :data:`geometry.limits.MAX_PIECES`,
+    before the N x N matrix is computed."""
+    from geometry.errors import RoutesError
+    from geometry.limits import MAX_PIECES
+
+    n = len(graph.segments)
+    if n > MAX_PIECES:
+        raise RoutesError(f"the copper makes {n} pieces; at most {MAX_PIECES} are accepted (their "
+                          f"inductance matrix would take {8 * n * n / 1e9:.1f} GB; a limit far "
+                          f"above any real board, see 'Limits' in docs/routes-file.md)",
+                          file=routes_path)
 
 
 def load_inputs(netlist_path: str, routes_path: str) -> Inputs:
@@ -101,4 +116,34 @@ def extract(
         return Extraction(inputs, np.zeros((0, 0)), np.zeros(0), frequency)
     L = inductance_matrix(arrays, progress=progress)
     R = resistances(arrays, inputs.routes.copper, frequency)
+    check_finite(inputs, L, R)
     return Extraction(inputs, L, R, frequency)
+
+
+def check_finite(inputs: Inputs, L: np.ndarray, R: np.ndarray) -> None:
+    """Refuse a non-finite or non-positive self term (H) or resistance (ohm),
+    naming the routes entry of the first such segment (its key path and line)."""
+    from parasite.errors import ExtractionError
+
+    bad = ~np.isfinite(R) | (R < 0) | ~np.isfinite(np.diag(L)) | (np.diag(L) <= 0)
+    bad |= ~np.isfinite(L).all(axis=1)
+    if not bad.any():
+        return
+    seg = inputs.graph.segments[int(np.flatnonzero(bad)[0])]
+    routes = inputs.routes
+    line = routes_line(routes, seg.source)
+    raise ExtractionError(
+        f"piece {seg.id} (length {seg.length:.3g} m, width {seg.width:.3g} m) gives a "
+        f"self inductance of {L[seg.index, seg.index]:.3g} H and a resistance of "
+        f"{R[seg.index]:.3g} ohm: its sizes are outside what the formulas cover",
+        file=inputs.routes_path, line=line, key=seg.source)
+
+
+def routes_line(routes: Routes, source: str) -> int | None:
+    """The line of the routes entry at key path ``source`` (``trace[2]``), if known."""
+    kind, _, rest = source.partition("[")
+    try:
+        entries = {"trace": routes.traces, "via": routes.vias, "probe": routes.probes}[kind]
+        return getattr(entries[int(rest.partition("]")[0])], "line", None)
+    except (KeyError, ValueError, IndexError):
+        return None

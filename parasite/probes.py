@@ -170,9 +170,11 @@ def probe_report(extraction: Any, names: dict[int, str],
             "ground_lead_length": _lead_length(graph, pn.ground_segments),
             "lead_inductance": l_leads,
             "lead_resistance": r_leads,
-            "lead_resonance": 1.0 / (2 * math.pi * math.sqrt(l_leads * ins.capacitance)),
-            "lead_damping_ratio": lead_damping_ratio(
-                l_leads, r_leads + ins.damping, ins.capacitance, ins.resistance),
+            "lead_resonance": (1.0 / (2 * math.pi * math.sqrt(l_leads * ins.capacitance))
+                               if l_leads > 0 else None),
+            "lead_damping_ratio": (lead_damping_ratio(
+                l_leads, r_leads + ins.damping, ins.capacitance, ins.resistance)
+                if l_leads > 0 else None),
             "pickup": entries,
         })
     return out
@@ -211,7 +213,7 @@ def format_probe_table(probes: Sequence[dict[str, Any]]) -> list[str]:
             f"    leads: tip {1e3 * p['tip_lead_length']:.1f} mm, ground "
             f"{1e3 * p['ground_lead_length']:.1f} mm; their loop "
             f"{engineering(p['lead_inductance'], 'H')}, resonating with the input capacitance at "
-            f"{engineering(p['lead_resonance'], 'Hz')}"
+            f"{engineering(p['lead_resonance'], 'Hz') if p['lead_resonance'] else 'no frequency'}"
             + ("" if zeta is None else f", damping ratio {zeta:.2g}"))
         for e in p["pickup"]:
             if e["pickup_per_ampere"] is None:

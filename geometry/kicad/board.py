@@ -127,7 +127,7 @@ def _read_layers(f: Fields, root: Expr) -> list[str]:
         atoms = entry.atoms()
         if len(atoms) >= 2 and str(atoms[0]).endswith(".Cu"):
             name = str(atoms[0])
-            if name not in ("F.Cu", "B.Cu") and not (name.startswith("In") and name[2:-3].isdigit()):
+            if name not in ("F.Cu", "B.Cu") and not (name.startswith("In") and name[2:-3].isdecimal()):
                 raise f.fail(entry, f"unknown copper layer name {name!r}")
             names.append(name)
     if not names:
@@ -285,7 +285,7 @@ def read_board_text(text: str, file: str) -> Board:
     nets: dict[int, str] = {}
     for net in root.lists("net"):
         atoms = net.atoms()
-        if len(atoms) >= 2 and type(atoms[0]) is str and atoms[0].lstrip("-").isdigit():
+        if len(atoms) >= 2 and type(atoms[0]) is str and atoms[0].lstrip("-").isdecimal():
             nets[int(atoms[0])] = str(atoms[1])
         elif len(atoms) == 1:
             nets[len(nets)] = str(atoms[0])

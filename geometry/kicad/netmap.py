@@ -64,7 +64,7 @@ class NetMapping:
 def node_name_from(board_net: str, taken: set[str]) -> str:
     """A node name made from a board net's name (never one in ``taken``)."""
     base = re.sub(r"[^a-z0-9_]", "_", board_net.lower()).strip("_") or "net"
-    if base[0].isdigit() and base != "0":
+    if base[0].isdecimal() and base != "0":
         base = "n" + base
     name, k = base, 2
     while canonical_net(name) in taken:
@@ -114,14 +114,14 @@ def _terminal_index(pad: Pad, element: ElementInfo, pin_map: Mapping[str, Mappin
         if pad.number not in table:
             return None
         term = table[pad.number]
-        if term.isdigit() and 1 <= int(term) <= len(element.nodes):
+        if term.isdecimal() and 1 <= int(term) <= len(element.nodes):
             return int(term) - 1
         if term in element.terminal_names:
             return element.terminal_names.index(term)
         raise BoardError(f"{element.name} has no terminal {term!r} (its terminals: "
                          f"{', '.join(element.terminal_names)})", file=map_file,
                          key=f"{pad.reference}.{pad.number}")
-    if pad.number.isdigit() and 1 <= int(pad.number) <= len(element.nodes):
+    if pad.number.isdecimal() and 1 <= int(pad.number) <= len(element.nodes):
         return int(pad.number) - 1
     return None
 

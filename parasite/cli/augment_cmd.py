@@ -38,16 +38,19 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     measurement.
     """
     from parasite.augment import augment_files
-    from parasite.outputs import check_output_path, write_output
+    from parasite.outputs import check_outputs, input_files, write_outputs
     from parasite.report import report_json
 
-    inputs = [netlist, routes]
-    check_output_path(output, inputs)
-    check_output_path(report_path, inputs + [output])
+    outputs = [output] if report_path is None else [report_path, output]
+    check_outputs(outputs, [netlist, routes])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                            keep_segments=keep_segments, progress=progress_callback(quiet))
+    inputs = input_files(netlist, routes, result.network.extraction.inputs.netlist
+                         if result.network is not None else None)
+    check_outputs(outputs, inputs)  # now also the files the netlist includes
     for w in result.report["warnings"]:
         click.echo(f"{routes}: warning: {w}", err=True)
+    items = [(output, result.netlist_bytes)]
     if report_path is not None:
-        write_output(report_path, report_json(result.report).encode(), inputs)
-    write_output(output, result.netlist_bytes, inputs)
+        items.insert(0, (report_path, report_json(result.report).encode()))
+    write_outputs(items, inputs)

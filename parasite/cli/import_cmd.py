@@ -5,6 +5,7 @@ from __future__ import annotations
 import click
 
 from parasite.cli import reports_input_errors
+from parasite.cli.options import SpiceNumber
 
 
 def _nets(value: str | None) -> dict[str, str | None] | None:
@@ -74,9 +75,10 @@ def _loops(values: tuple[str, ...]) -> list[tuple[str, tuple[str, ...], dict[str
               help="Write a [[loop]] through these terminals (as in the routes file), with an optional "
                    "budget and frequency (SPICE-style values, e.g. ';limit=3n;frequency=100meg'); "
                    "repeatable.")
-@click.option("--arc-tolerance", type=click.FloatRange(min=1e-6, min_open=False), default=5e-3,
+@click.option("--arc-tolerance", type=SpiceNumber(minimum=1e-6, exclusive=False, maximum=10.0),
+              default=5e-3,
               show_default=True, help="Largest distance of an arc's chords from the arc, mm.")
-@click.option("--plating", type=click.FloatRange(min=0.0, min_open=True), default=25e-3,
+@click.option("--plating", type=SpiceNumber(minimum=0.0, maximum=1.0), default=25e-3,
               show_default=True, help="Plating thickness of via and hole walls, mm.")
 @reports_input_errors
 def import_board(board: str, netlist: str | None, pin_map: str | None, output: str,
@@ -106,7 +108,8 @@ def import_board(board: str, netlist: str | None, pin_map: str | None, output: s
     text, draft = import_board(parsed, elements, options, table, pin_map, source=board,
                                netlist_name=netlist)
     _check(text, output, board, nl)
-    write_output(output, text.encode(), inputs)
+    write_output(output, text.encode(),
+                 [*inputs, *(nl.included_files if nl is not None else [])])
     for net, node in sorted(draft.net_names.items()):
         click.echo(f"{board}: board net {net!r} -> node {node}", err=True)
     for note in draft.notes:

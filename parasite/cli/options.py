@@ -6,6 +6,7 @@ from typing import Any
 
 import click
 
+from geometry.limits import FREQUENCY_RANGE_HZ
 from parasite.units import parse_spice_number
 
 
@@ -14,9 +15,12 @@ class SpiceNumber(click.ParamType):
 
     name = "number"
 
-    def __init__(self, minimum: float | None = None, exclusive: bool = True) -> None:
+    def __init__(self, minimum: float | None = None, exclusive: bool = True,
+                 maximum: float | None = None, max_exclusive: bool = False) -> None:
         self.minimum = minimum
         self.exclusive = exclusive
+        self.maximum = maximum
+        self.max_exclusive = max_exclusive
 
     def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> float:
         try:
@@ -26,17 +30,24 @@ class SpiceNumber(click.ParamType):
         if self.minimum is not None and (x <= self.minimum if self.exclusive else x < self.minimum):
             rel = ">" if self.exclusive else ">="
             self.fail(f"{value!r} must be {rel} {self.minimum:g}", param, ctx)
+        if self.maximum is not None and (x >= self.maximum if self.max_exclusive
+                                         else x > self.maximum):
+            rel = "<" if self.max_exclusive else "<="
+            self.fail(f"{value!r} must be {rel} {self.maximum:g}", param, ctx)
         return x
 
 
 netlist_arg = click.argument("netlist", type=click.Path(dir_okay=False, allow_dash=True))
 routes_arg = click.argument("routes", type=click.Path(dir_okay=False))
 frequency_opt = click.option(
-    "--frequency", type=SpiceNumber(minimum=0.0), default=None,
-    help="Resistance at this frequency in Hz (skin effect estimate); default DC. Accepts 100meg.",
+    "--frequency", type=SpiceNumber(minimum=FREQUENCY_RANGE_HZ[0], exclusive=False,
+                                    maximum=FREQUENCY_RANGE_HZ[1]), default=None,
+    help="Resistance at this frequency in Hz (skin effect estimate), 1e-6 to 1e12; default DC. "
+         "Accepts 100meg.",
 )
 min_coupling_opt = click.option(
-    "--min-coupling", type=click.FloatRange(0.0, 1.0, max_open=True), default=None,
+    "--min-coupling", type=SpiceNumber(minimum=0.0, exclusive=False, maximum=1.0,
+                                       max_exclusive=True), default=None,
     help="Write coupling statements only for |k| at or above this (0: every coupling). Default: "
          "chosen per board, the largest threshold that keeps every [[loop]] within 1% of the full "
          "matrix (0.01 for a board without loops).",

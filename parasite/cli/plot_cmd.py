@@ -26,7 +26,7 @@ def plot(netlist: str, routes: str, output: str, loop_name: str | None, coupling
          quiet: bool) -> None:
     """Draw the copper of NETLIST + ROUTES from above into a PNG or SVG file."""
     from parasite.loops import loop_results
-    from parasite.outputs import check_output_path, write_output
+    from parasite.outputs import check_output_path, input_files, write_output
     from parasite.pipeline import extract, load_inputs
     from parasite.plot import plot_bytes, plot_format, require_matplotlib
 
@@ -53,4 +53,4 @@ def plot(netlist: str, routes: str, output: str, loop_name: str | None, coupling
         results = loop_results(inputs.graph, inputs.netlist, extraction.L, extraction.R)
         chosen = next(r for r in results if r.name == loop_name)
     data = plot_bytes(inputs.graph, extraction.L, fmt, loop=chosen, couplings=couplings)
-    write_output(output, data, [netlist, routes])
+    write_output(output, data, input_files(netlist, routes, inputs.netlist))

@@ -32,11 +32,13 @@ def report(netlist: str, routes: str, fmt: str, table: str, output: str,
     """Report the segments, couplings, loops and warnings of NETLIST + ROUTES
     (SI units in JSON and CSV)."""
     from parasite.augment import augment_files
-    from parasite.outputs import check_output_path, write_output
+    from parasite.outputs import check_output_path, input_files, write_output
     from parasite.report import format_report
 
     check_output_path(output, [netlist, routes])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                            progress=progress_callback(quiet))
     text = format_report(result.report, fmt, table)
-    write_output(output, text.encode(), [netlist, routes])
+    write_output(output, text.encode(), input_files(
+        netlist, routes, result.network.extraction.inputs.netlist
+        if result.network is not None else None))

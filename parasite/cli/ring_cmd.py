@@ -30,7 +30,7 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
               show_default=True, help="How the metrics are printed.")
 @click.option("-o", "--output", default="-", show_default=True,
               help="Where the metrics go: a file, or - for standard output.")
-@click.option("--band", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True),
+@click.option("--band", type=SpiceNumber(minimum=0.0, maximum=1.0, max_exclusive=True),
               default=0.05, show_default=True,
               help="Settling band, as a fraction of each edge's step.")
 @click.option("--capacitance", type=SpiceNumber(minimum=0.0), default=None,
@@ -50,7 +50,8 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
                    "(the first measured edge with simulated edge N, then in order).")
 @click.option("--all-edges", is_flag=True, help="Print every simulated edge, not the last of "
               "each direction.")
-@click.option("--timeout", type=click.FloatRange(min=1.0), default=600.0, show_default=True,
+@click.option("--timeout", type=SpiceNumber(minimum=1.0, exclusive=False, maximum=1e6),
+              default=600.0, show_default=True,
               help="Stop a simulation after this many seconds.")
 @min_coupling_opt
 @frequency_opt
@@ -73,13 +74,13 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
     energy, large currents). Follow local codes and licensed practice. The
     numbers are estimates, to be confirmed by measurement.
     """
-    from parasite.outputs import check_output_path, write_output
+    from parasite.outputs import check_output_path, check_outputs, write_outputs
     from parasite.ring.analyse import analyse_ring
     from parasite.ring.report import format_ring_text, ring_json
 
     rule: str | int = edge_rule.strip().lower()
     if rule not in ("order", "last"):
-        if not str(rule).isdigit() or int(rule) < 1:
+        if not str(rule).isdecimal() or int(rule) < 1:
             raise click.BadParameter(f"{edge_rule!r}: give 'order', 'last' or an edge number "
                                      "(1, 2, ...)", param_hint="--edge")
         rule = int(rule)
@@ -92,7 +93,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
             picture = plot_format(plot_path)
         except ValueError as exc:
             raise click.BadParameter(str(exc), param_hint="--plot") from None
-        check_output_path(plot_path, inputs + [output])
+    check_outputs([plot_path, output] if plot_path is not None else [output], inputs)
     progress = None if quiet else _progress(tran_of(netlist))
     try:
         result = analyse_ring(
@@ -110,15 +111,21 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
     for key, sim in result.report["simulations"].items():
         for w in sim.get("warnings", []):
             click.echo(f"{netlist}: ngspice ({key}): {w}", err=True)
+    items = []
     if plot_path is not None:
         from parasite.ring.plot import ring_figure
 
-        write_output(plot_path, ring_figure(result, fmt=picture), inputs)
+        items.append((plot_path, ring_figure(result, fmt=picture)))
     if fmt == "json":
         text = ring_json(result.report)
     else:
         text = format_ring_text(result.report, all_edges=all_edges)
-    write_output(output, text.encode(), inputs)
+    items.append((output, text.encode()))
+    if netlist != "-":  # the files the netlist includes are inputs too
+        from parasite.netlist import read_netlist
+
+        inputs += [str(f) for f in read_netlist(netlist).included_files]
+    write_outputs(items, inputs)
 
 
 def tran_of(netlist: str) -> float | None:

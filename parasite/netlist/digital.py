@@ -133,7 +133,7 @@ def layout(tokens: list[Token], prim: str) -> tuple[tuple[tuple[int, int], ...],
     """Node spans and terminal names (``dpwr``, ``dgnd``, then the primitive's
     pins), or a string saying why the nodes cannot be told."""
     texts, start = _params(tokens)
-    if not all(t.isdigit() for t in texts):
+    if not all(t.isdecimal() for t in texts):
         return f"{prim} parameters {texts} are not all plain integers"
     names = _names(prim, [int(t) for t in texts])
     if names is None:

@@ -239,7 +239,7 @@ def _controlled(
         n, names = 2, ("p", "n")
         aliases: dict[str, int] = {}
     elif word == "poly":
-        if len(tokens) < 5 or not tokens[4].text.isdigit() or int(tokens[4].text) < 1:
+        if len(tokens) < 5 or not tokens[4].text.isdecimal() or int(tokens[4].text) < 1:
             raise LayoutError(f"{name}: POLY needs its dimension as a positive integer, "
                               f"as in POLY(2) (form: {kind.form})")
         dims = int(tokens[4].text)

@@ -86,6 +86,12 @@ class Netlist:
         self._node_names: set[str] | None = None
 
     @property
+    def included_files(self) -> list[Path]:
+        """Every file that ``.include`` / ``.lib`` cards read, resolved (inputs
+        that no output may overwrite)."""
+        return list(self._result.files)
+
+    @property
     def title(self) -> str:
         """The first line of the main file (ngspice's title line)."""
         return self._result.title
@@ -213,7 +219,7 @@ class Netlist:
             return lay.terminal_names.index(want)
         if want in lay.aliases:
             return lay.aliases[want]
-        if want.isdigit() and 1 <= int(want) <= len(lay.spans):
+        if want.isdecimal() and 1 <= int(want) <= len(lay.spans):
             return int(want) - 1
         names = [*lay.terminal_names, *(a for a in lay.aliases if a not in lay.terminal_names)]
         accepted = (

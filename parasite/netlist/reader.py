@@ -35,6 +35,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from geometry.limits import MAX_INCLUDE_DEPTH, MAX_SUBCKT_DEPTH
 from parasite.errors import NetlistError
 from parasite.netlist.digital import primitive
 from parasite.netlist.kinds import LayoutError, layout
@@ -113,6 +114,7 @@ class ReadResult:
     main_cards: list[Card]
     main_end: int | None  # line index of the main file's top-level .end
     main_open_control: int | None  # line index of a .control left open at the end
+    files: list[Path] = field(default_factory=list)  # the included files, resolved
 
 
 def shown(text: str) -> str:
@@ -152,6 +154,7 @@ class Reader:
         self.warnings: list[str] = []
         self._stack: list[Scope] = []
         self._includes: list[tuple[Path, str | None, str]] = []
+        self.files: list[Path] = []  # every file included, resolved
         self._if_stack: list[list[int]] = []
         self._if_count = 0
         # (scope id, element key) -> [(condition path, file, line)]
@@ -207,6 +210,7 @@ class Reader:
             main_cards=self._main_cards,
             main_end=self._main_end,
             main_open_control=self._main_open_control,
+            files=self.files,
         )
 
     # -- files ---------------------------------------------------------------------------
@@ -309,6 +313,11 @@ class Reader:
             resolved, is_file, exists = path, False, False
         key = (resolved, section)
         chain = [n for (p, s, n) in self._includes]
+        if len(self._includes) >= MAX_INCLUDE_DEPTH:
+            raise NetlistError(
+                f"{card.keyword} files are nested more than {MAX_INCLUDE_DEPTH} deep (a limit far "
+                f"above any real netlist): {' -> '.join(chain[:3])} -> ... -> {shown_name}",
+                file=src.name, line=line)
         if any((p, s) == key for (p, s, _) in self._includes):
             raise NetlistError(
                 f"include cycle: {' -> '.join([*chain, shown_name])}",
@@ -332,6 +341,7 @@ class Reader:
                 file=src.name,
                 line=line,
             ) from None
+        self.files.append(resolved)
         child = SourceFile(shown_name, path.parent, lines, path=resolved)
         self._includes.append((resolved, section, shown_name))
         try:
@@ -386,6 +396,10 @@ class Reader:
             ):
                 break
             ports.append(ascii_lower(t))
+        if len(self._stack) >= MAX_SUBCKT_DEPTH:
+            raise NetlistError(f".subckt definitions are nested more than {MAX_SUBCKT_DEPTH} deep "
+                               f"(a limit far above any real netlist)",
+                               file=src.name, line=card.first + 1)
         parent = self._stack[-1] if self._stack else None
         scope = Scope(tokens[1].text, tuple(ports), card.first + 1, src.name, parent)
         table = parent.subckts if parent is not None else self.subckts

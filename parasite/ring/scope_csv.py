@@ -80,7 +80,7 @@ class ScopeTrace:
         for n in names:
             if n.lower() == name.strip().lower():
                 return n, self.channels[n]
-        if name.strip().isdigit() and 1 <= int(name) <= len(names):
+        if name.strip().isdecimal() and 1 <= int(name) <= len(names):
             n = names[int(name) - 1]
             return n, self.channels[n]
         raise MeasurementError(
