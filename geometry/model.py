@@ -223,10 +223,10 @@ class Plane:
 class Segment:
     """One straight piece of copper, oriented start -> end.
 
-    Bars (``trace``, and ``cell``: the current cells of a meshed pour) have a rectangular section ``width`` x ``thickness``,
-    centred on the centre line, the width lying in the board plane. Round
-    conductors (``via`` barrels and ``probe`` leads) have an outer ``radius``
-    and an ``inner_radius`` (0 for a solid conductor).
+    Bars (``trace``, and ``cell``: the current cells of a meshed pour) have a
+    rectangular section ``width`` x ``thickness``, centred on the centre line,
+    the width lying in the board plane. Round conductors (``via`` barrels and
+    ``probe`` leads) have an outer ``radius`` and an ``inner_radius`` (0 for a solid conductor).
     """
 
     index: int  # position in CopperGraph.segments

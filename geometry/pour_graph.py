@@ -42,7 +42,7 @@ from shapely.geometry import Point
 from geometry.errors import RoutesError
 from geometry.graph_base import _arrays
 from geometry.mesh import PourMesh, mesh_pour
-from geometry.model import CopperGraph, Node, PinNode, Routes, Segment
+from geometry.model import UNIT_SCALE, CopperGraph, Node, PinNode, Routes, Segment
 from geometry.pour import Pour
 
 
@@ -138,12 +138,35 @@ def mesh_pours_into(graph: CopperGraph, routes: Routes, mirror: object) -> Coppe
                               layer=pour.layer))
         next_id += mesh.n_nodes
 
-    def join(layer: str, xy: Sequence[float]) -> int:
-        """Global id of the node nearest ``xy`` in the pour of ``layer`` nearest ``xy``."""
+    warnings: list[str] = []
+    own_nodes: dict[str, list[int]] = {layer: ids for layer, ids in trace_nodes.items()}
+
+    def join(layer: str, xy: Sequence[float], what: str) -> int:
+        """Global id of the node that copper at ``xy`` on ``layer`` joins: the
+        nearest mesh node of the pour under it; off every pour, a trace node of
+        the net there (signal layer) or the nearest mesh node with a warning
+        (plane layer)."""
         pt = Point(xy)
-        cands = [(pour.polygon.distance(pt), off + mesh.nearest_node(xy))
+        cands = [(pour.polygon.distance(pt), off + mesh.nearest_node(xy), pour)
                  for pour, mesh, off in meshes if pour.layer == layer]
-        return min(cands)[1]
+        d, nid, pour = min(cands, key=lambda c: (c[0], c[1]))
+        if d <= snap:
+            return nid
+        for tid in own_nodes[layer]:
+            tx, ty, _ = nodes[tid].point
+            if math.hypot(tx - xy[0], ty - xy[1]) <= snap:
+                return tid
+        if routes.layers[layer].plane is None:
+            raise RoutesError(
+                f"{what} at [{xy[0] / _scale(routes):.6g}, {xy[1] / _scale(routes):.6g}] "
+                f"{routes.units} on layer {layer!r} lies off the pour and off any trace end of net "
+                f"{pour.net!r}; on a layer with a pour, copper of the net off the pour joins only "
+                f"at a trace's end or vertex (not supported yet elsewhere)",
+                file=routes.path, line=pour.line, key=f"{pour.key}.outline")
+        warnings.append(f"{routes.path}:{pour.line}: warning: {pour.key}: {what} lies "
+                        f"{d / _scale(routes):.6g} {routes.units} off the pour on plane layer "
+                        f"{layer!r}; it joins the pour's nearest node")
+        return nid
 
     # trace nodes on a pour become (are merged with) its mesh node
     remap: dict[int, int] = {}
@@ -156,15 +179,15 @@ def mesh_pours_into(graph: CopperGraph, routes: Routes, mirror: object) -> Coppe
                     break
     node_of_plane = {pn: layer for layer, pn in plane_node.items()}
 
-    def new_id(nid: int, xy: Sequence[float]) -> int:
+    def new_id(nid: int, xy: Sequence[float], what: str) -> int:
         if nid in node_of_plane:
-            nid = join(node_of_plane[nid], xy)
+            nid = join(node_of_plane[nid], xy, what)
         return remap.get(nid, nid)
 
     out: list[Segment] = []
     for s in segments:
-        out.append(dataclasses.replace(s, node_from=new_id(s.node_from, s.start[:2]),
-                                       node_to=new_id(s.node_to, s.end[:2])))
+        out.append(dataclasses.replace(s, node_from=new_id(s.node_from, s.start[:2], s.source),
+                                       node_to=new_id(s.node_to, s.end[:2], s.source)))
     counters: dict[str, int] = {}
     for s in out:
         counters[s.net] = counters.get(s.net, 0) + 1
@@ -179,9 +202,15 @@ def mesh_pours_into(graph: CopperGraph, routes: Routes, mirror: object) -> Coppe
                 width=float(mesh.width[k]), thickness=mesh.thickness, radius=0.0,
                 inner_radius=0.0, node_from=remap.get(a, a), node_to=remap.get(b, b),
                 source=pour.key, name=pour.name))
-    pins = [dataclasses.replace(pn, node=new_id(pn.node, pn.pin.at)) for pn in graph.pins]
+    pins = [dataclasses.replace(pn, node=new_id(pn.node, pn.pin.at, f"pin {pn.pin.terminal!r}"))
+            for pn in graph.pins]
     anchors = _anchors(graph.anchors, graph.pins, pins)
+    graph = dataclasses.replace(graph, warnings=graph.warnings + tuple(warnings))
     return _compact(graph, routes, nodes, out, pins, anchors, set(plane_node.values()), mirror)
+
+
+def _scale(routes: Routes) -> float:
+    return UNIT_SCALE[routes.units]
 
 
 def _anchors(old: Mapping[str, int], old_pins: Sequence[PinNode],
