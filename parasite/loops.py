@@ -50,7 +50,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -130,10 +130,19 @@ class LoopResult:
     line: int | None = None  # line of the entry in the routes file, where known
     self_terms: tuple[tuple[str, float], ...] = ()  # (segment id, L_ii |i_i|^2) per segment
     pours: tuple[PourUse, ...] = ()  # the pours whose cells carry loop current, in file order
+    # (N,) current of every graph segment per 1 A of loop current (complex phasor at the
+    # loop's frequency, real at 0 Hz; 0 off the loop's nets), for pictures
+    currents: Any = field(default=None, compare=False, repr=False)
 
     @property
     def over_limit(self) -> bool:
         return self.within_limit is False
+
+
+def _all_currents(n: int, segments: Any, currents: np.ndarray) -> np.ndarray:
+    out = np.zeros(n, dtype=np.asarray(currents).dtype)
+    out[np.asarray(segments, dtype=np.int64)] = currents
+    return out
 
 
 def loop_results(
@@ -192,6 +201,7 @@ def loop_results(
             pair_contributors=pairs, index=spec.index, line=spec.line, self_terms=self_terms,
             pours=pour_uses(graph, np.asarray(segments), np.asarray(sol.currents),
                             np.asarray(sol.segment_terms)),
+            currents=_all_currents(len(graph.segments), segments, sol.currents),
         ))
     return results
 
