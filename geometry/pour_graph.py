@@ -23,8 +23,9 @@ How (part of :func:`geometry.graph.build_graph`):
 
 Limits: the pours of one layer must share one net, and a layer with a pour
 carries no trace or pin of another net (not supported yet: an error names
-the entry); a via passing through a pour layer joins the pour (its
-clearance is not modelled); a trace
+the entry); a via passing through a pour layer on the pour joins it (its
+clearance is not modelled), off the pour it gets a node of its own there; a
+pin off the pour on such a layer must sit on a trace's end or vertex; a trace
 running over a pour of its own net on the same layer joins it at its ends and
 vertices only (the trace's copper is counted beside the pour's, not merged).
 SI units (metres).
@@ -156,6 +157,13 @@ def mesh_pours_into(graph: CopperGraph, routes: Routes, mirror: object) -> Coppe
             tx, ty, _ = nodes[tid].point
             if math.hypot(tx - xy[0], ty - xy[1]) <= snap:
                 return tid
+        if what.startswith("via[") and routes.layers[layer].plane is None:
+            # a via off the pour: its own node on the layer, as without a pour
+            nodes.append(Node(id=len(nodes), net=pour.net,
+                              point=(float(xy[0]), float(xy[1]), routes.layers[layer].mid),
+                              layer=layer))
+            own_nodes[layer].append(len(nodes) - 1)
+            return len(nodes) - 1
         if routes.layers[layer].plane is None:
             raise RoutesError(
                 f"{what} at [{xy[0] / _scale(routes):.6g}, {xy[1] / _scale(routes):.6g}] "
