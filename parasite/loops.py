@@ -33,6 +33,10 @@ half of each of its mutual terms); the term of a pair ``i < j`` is
 ``L_loop`` too. A negative term is copper whose field cancels the loop's
 (typically the return path running under the go path).
 
+Pours: a loop's current through a meshed pour (segments of kind ``cell``)
+divides over its cells like any parallel copper; :func:`pour_uses` names the
+pours it uses, with their cells' summed term.
+
 Frequency: a loop's ``frequency`` sets how current divides between parallel
 paths. Without one the low-frequency limit applies (reported as 0 Hz): the
 current divides as the resistances dictate, and
