@@ -95,8 +95,8 @@ def mesh_pours_into(graph: CopperGraph, routes: Routes, mirror: object) -> Coppe
     attach: dict[str, list[tuple[float, float]]] = {n: [] for n in layer_net}
     for s in segments:
         for nid, pt in ((s.node_from, s.start), (s.node_to, s.end)):
-            for layer, pn in plane_node.items():
-                if nid == pn:
+            for layer, pid in plane_node.items():
+                if nid == pid:
                     attach[layer].append((pt[0], pt[1]))
     for pn in graph.pins:
         for layer, pnode in plane_node.items():

@@ -296,8 +296,9 @@ def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]
 
 def _pour_lines(r: LoopResult | Mapping[str, Any], value: float) -> list[str]:
     """Text lines naming the pours a loop's current uses (from a result or its dict)."""
-    uses = ([{"pour": p.source, "name": p.name, "layer": p.layer, "inductance": p.inductance,
-              "peak_current": p.peak_current} for p in r.pours]
+    uses: list[Any] = ([{"pour": p.source, "name": p.name, "layer": p.layer,
+                         "inductance": p.inductance, "peak_current": p.peak_current}
+                        for p in r.pours]
             if isinstance(r, LoopResult) else list(r.get("pours") or []))
     out = []
     for p in uses:

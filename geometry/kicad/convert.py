@@ -167,8 +167,8 @@ def _pours(net: str, layer: str, fill: FillPolygon, frame: Callable[[Point], Poi
     import shapely
     from shapely.geometry import Polygon, box
 
-    poly = Polygon([frame(tuple(p)) for p in fill.outline],  # type: ignore[arg-type]
-                   [[frame(tuple(p)) for p in h] for h in fill.holes])  # type: ignore[arg-type]
+    poly = Polygon([frame((float(x), float(y))) for x, y in fill.outline],
+                   [[frame((float(x), float(y))) for x, y in h] for h in fill.holes])
     poly = shapely.make_valid(poly).simplify(POUR_TOLERANCE, preserve_topology=True)
     if area is not None:
         poly = poly.intersection(box(*area))
