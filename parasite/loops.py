@@ -217,7 +217,8 @@ def loop_results(
 def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str, Any]:
     """The JSON report's entry for one loop (SI units; the keys of the
     command-line contract plus ``contributors`` and ``pair_contributors``, the
-    ``top`` largest terms each, with ``share`` = term / loop inductance)."""
+    ``top`` largest terms each, with ``share`` = term / loop inductance; and
+    ``pours`` when the loop's current uses a pour)."""
 
     def share(x: float) -> float | None:
         return x / r.inductance if r.inductance != 0 else None
@@ -237,13 +238,11 @@ def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str
             {"a": a, "b": b, "inductance": term, "share": share(term)}
             for a, b, term in r.pair_contributors[:top]
         ],
-        "pours": [
-            {"pour": p.source, "name": p.name, "net": p.net, "layer": p.layer,
-             "inductance": p.inductance, "share": share(p.inductance),
-             "peak_current": p.peak_current, "cells": p.cells}
-            for p in r.pours
-        ],
-    }
+    } | ({} if not r.pours else {"pours": [
+        {"pour": p.source, "name": p.name, "net": p.net, "layer": p.layer,
+         "inductance": p.inductance, "share": share(p.inductance),
+         "peak_current": p.peak_current, "cells": p.cells}
+        for p in r.pours]})
 
 
 def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:
