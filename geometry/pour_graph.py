@@ -24,7 +24,8 @@ How (part of :func:`geometry.graph.build_graph`):
    planes on other layers still image the cells). A plane layer without a
    pour stays the ideal infinite plane.
 
-Limits: the pours of one layer must share one net, and a layer with a pour
+Limits: the pours of one layer must share one net and must not overlap
+(merge them into one outline), and a layer with a pour
 carries no trace or pin of another net (not supported yet: an error names
 the entry); a via passing through a pour layer on the pour joins it (its
 clearance is not modelled), off the pour it gets a node of its own there; a
@@ -60,6 +61,13 @@ def pour_layers(routes: Routes) -> dict[str, str]:
                 f"layer {p.layer!r} holds pours of nets {out[p.layer]!r} and {p.net!r}; pours of "
                 f"several nets on one layer are not supported yet (put each net's pour on its own "
                 f"layer)", file=routes.path, line=p.line, key=f"{p.key}.net")
+    for k, p in enumerate(routes.pours):
+        for q in routes.pours[:k]:
+            if q.layer == p.layer and p.polygon.intersection(q.polygon).area > 1e-9 * p.polygon.area:
+                raise RoutesError(
+                    f"{p.key} overlaps {q.key} (same net, same layer); they would be meshed as two "
+                    f"separate sheets: merge them into one outline", file=routes.path, line=p.line,
+                    key=f"{p.key}.outline")
     for t in routes.traces:
         if t.layer in out and t.net != out[t.layer] and routes.layers[t.layer].plane is None:
             p = next(q for q in routes.pours if q.layer == t.layer)

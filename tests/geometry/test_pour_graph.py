@@ -108,3 +108,13 @@ def test_pour_on_a_signal_layer_joins_the_trace_ends_on_it() -> None:
     assert "top" not in {p.layer for p in g.planes}
     v1p = next(pn for pn in g.pins if pn.pin.terminal == "V1:p")  # off the pour: on the trace
     assert v1p.node == trace.node_from
+
+
+def test_overlapping_pours_of_one_net_are_refused() -> None:
+    """Two pours of one net sharing area on one layer would be two separate
+    sheets in the mesh: an error asks to merge them, naming the later entry."""
+    text = FIXTURE.read_text() + ('\n[[pour]]\nnet = "gnd"\nlayer = "gnd"\n'
+                                  'outline = [[20, 5], [30, 5], [30, 8], [20, 8]]\n')
+    r = parse_routes(text.encode(), "b.routes.toml", "toml")
+    with pytest.raises(RoutesError, match=r"pour\[1\]\.outline.*overlaps pour\[0\].*merge"):
+        build_graph(r, PIN_NETS)
