@@ -27,7 +27,7 @@ R1 vin 0 1m
 
 
 def _augment(cell: str, min_coupling: float | None) -> tuple[str, float]:
-    routes = (ROUTES / "pour_plane.routes.toml").read_text().replace("cell = 2.0", f"cell = {cell}")
+    routes = (ROUTES / "pour_plane.routes.toml").read_text().replace("cell = 3.0", f"cell = {cell}")
     res = augment_text(NETLIST, routes, routes_format="toml", netlist_name="pour.cir",
                        routes_name="pour_plane.routes.toml", min_coupling=min_coupling)
     (loop,) = res.report["loops"]
@@ -65,7 +65,7 @@ def test_meshed_pour_loop_in_gnucap_as_in_ngspice(tmp_path: Path) -> None:
     inductance within 0.5% (every coupling written), and gnucap and ngspice
     agree on the deck within 1e-6 (two independent simulators solving the same
     linear equations, 12 printed digits). References: gnucap, ngspice."""
-    routes = (ROUTES / "pour_plane.routes.toml").read_text().replace("cell = 2.0", "cell = 4.0")
+    routes = (ROUTES / "pour_plane.routes.toml").read_text().replace("cell = 3.0", "cell = 4.0")
     routes = routes.replace('"V1:', '"I1:')
     netlist = "pour loop, AC current drive (invented test scenario)\nI1 vin 0 AC 1\nR1 vin 0 1m\n.end\n"
     res = augment_text(netlist, routes, routes_format="toml", min_coupling=0.0)
