@@ -26,7 +26,7 @@ def test_pour_entry_is_loaded_in_si() -> None:
     (p,) = r.pours
     assert (p.net, p.layer, p.name) == ("0", "gnd", "ground pour")
     assert p.outline[2] == pytest.approx((24e-3, 10e-3))
-    assert p.cell == pytest.approx(2e-3)
+    assert p.cell == pytest.approx(3e-3)
 
 
 def test_graph_meshes_the_pour_and_drops_the_ideal_plane() -> None:
