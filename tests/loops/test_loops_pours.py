@@ -86,7 +86,7 @@ def test_slot_across_the_return_raises_the_loop_and_a_parallel_one_does_not() ->
     crowds under the trace (falling as h / (h^2 + x^2): Johnson & Graham 1993,
     ground-plane current). Common practice of layout: never cut the return
     under a fast trace. The rise bounds (1% and 5%) are floors; measured +6%
-    and +13%, and -0.02% for the parallel slot."""
+    and +13%, and -0.01% for the parallel slot."""
     base = _loop_l(POUR_ROUTES)
     short = _loop_l(_with_hole(11.8, 3.5, 12.2, 6.5))
     long = _loop_l(_with_hole(11.8, 2.0, 12.2, 8.0))
