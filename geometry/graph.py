@@ -272,4 +272,8 @@ def build_graph(routes: Routes, pin_nets: Sequence[str], *,
     the anchor, an anchor that no pin places). See the module docstring for
     the rules.
     """
-    return _Builder(routes, pin_nets, anchor_pins).run()
+    if not routes.pours:
+        return _Builder(routes, pin_nets, anchor_pins).run()
+    from geometry.pour_graph import as_planes, mesh_pours_into  # pours: geometry/pour_graph.py
+    builder = _Builder(as_planes(routes), pin_nets, anchor_pins)
+    return mesh_pours_into(builder.run(), routes, builder.mirror)

@@ -16,14 +16,14 @@ Conventions, used everywhere in the project:
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
 Unit = Literal["m", "mm", "um", "mil", "in"]
 UNIT_SCALE: dict[str, float] = {"m": 1.0, "mm": 1e-3, "um": 1e-6, "mil": 25.4e-6, "in": 0.0254}
 
-SegmentKind = Literal["trace", "via", "probe"]
+SegmentKind = Literal["trace", "via", "probe", "cell"]
 
 Point2 = tuple[float, float]
 Point3 = tuple[float, float, float]
@@ -194,6 +194,7 @@ class Routes:
     loops: tuple[LoopSpec, ...]
     nets: dict[str, NetOptions]
     probes: tuple[Probe, ...] = ()
+    pours: tuple[Any, ...] = ()  # geometry.pour.Pour, in file order
 
 
 @dataclass(frozen=True)
@@ -222,10 +223,10 @@ class Plane:
 class Segment:
     """One straight piece of copper, oriented start -> end.
 
-    Bars (``trace``) have a rectangular section ``width`` x ``thickness``,
-    centred on the centre line, the width lying in the board plane. Round
-    conductors (``via`` barrels and ``probe`` leads) have an outer ``radius``
-    and an ``inner_radius`` (0 for a solid conductor).
+    Bars (``trace``, and ``cell``: the current cells of a meshed pour) have a
+    rectangular section ``width`` x ``thickness``, centred on the centre line,
+    the width lying in the board plane. Round conductors (``via`` barrels and
+    ``probe`` leads) have an outer ``radius`` and an ``inner_radius`` (0 for a solid conductor).
     """
 
     index: int  # position in CopperGraph.segments
@@ -250,7 +251,7 @@ class Segment:
 
     @property
     def round(self) -> bool:
-        return self.kind != "trace"
+        return self.kind in ("via", "probe")
 
 
 @dataclass(frozen=True)

@@ -68,7 +68,7 @@ from geometry.probe_entries import parse_probe_entry
 from geometry.routes_context import DEFAULT_SNAP_M, FORMAT, Context, _describe
 
 _TOP_KEYS = ("format", "units", "snap", "copper", "layers", "nets",
-             "trace", "via", "pin", "loop", "probe")
+             "trace", "via", "pin", "loop", "probe", "pour")
 _COPPER_KEYS = ("resistivity", "temperature_coefficient", "reference_temperature", "temperature")
 _LAYER_KEYS = ("z", "thickness", "plane")
 _NET_KEYS = ("anchor",)
@@ -81,6 +81,11 @@ __all__ = ["DEFAULT_SNAP_M", "ENTRY_PARSERS", "FORMAT", "Context", "load_routes"
 
 EntryParser = Callable[[Context, Any, int], Any]
 
+
+def _parse_pour(ctx: Context, raw: Any, index: int) -> Any:
+    from geometry.pour import parse_pour_entry  # geometry.pour imports this module
+    return parse_pour_entry(ctx, raw, index)
+
 # [[kind]] -> parser; order is the order in which kinds are parsed.
 ENTRY_PARSERS: dict[str, EntryParser] = {
     "trace": parse_trace_entry,
@@ -88,6 +93,7 @@ ENTRY_PARSERS: dict[str, EntryParser] = {
     "pin": parse_pin_entry,
     "loop": parse_loop_entry,
     "probe": parse_probe_entry,
+    "pour": _parse_pour,
 }
 
 
@@ -225,12 +231,17 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
                      f"loop names must be unique")
         seen_loops[lp.name] = lp
 
-    copper_nets = {t.net for t in traces} | {v.net for v in vias}
+    pours = tuple(parsed["pour"])
+    if pours:
+        from geometry.pour import check_pour_overlaps
+        check_pour_overlaps(ctx, pours)
+    copper_nets = {t.net for t in traces} | {v.net for v in vias} | {p.net for p in pours}
     copper_nets |= {la.plane for la in ctx.layers.values() if la.plane is not None}
     nets = _parse_nets(ctx, data["nets"], copper_nets) if "nets" in data else {}
     return Routes(path=ctx.file, units=ctx.units, snap=ctx.snap, copper=copper,
                   layers=ctx.layers, traces=tuple(traces), vias=tuple(vias), pins=tuple(pins),
-                  loops=tuple(loops), nets=nets, probes=tuple(parsed["probe"]))
+                  loops=tuple(loops), nets=nets, probes=tuple(parsed["probe"]),
+                  pours=pours)
 
 
 def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes:

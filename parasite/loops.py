@@ -33,6 +33,10 @@ half of each of its mutual terms); the term of a pair ``i < j`` is
 ``L_loop`` too. A negative term is copper whose field cancels the loop's
 (typically the return path running under the go path).
 
+Pours: a loop's current through a meshed pour (segments of kind ``cell``)
+divides over its cells like any parallel copper; :func:`pour_uses` names the
+pours it uses, with their cells' summed term.
+
 Frequency: a loop's ``frequency`` sets how current divides between parallel
 paths. Without one the low-frequency limit applies (reported as 0 Hz): the
 current divides as the resistances dictate, and
@@ -50,7 +54,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -62,6 +66,49 @@ from parasite.units import engineering
 
 DEFAULT_TOP_PAIRS = 10
 """How many segment pairs ``loop_results`` keeps per loop (largest terms first)."""
+POUR_CURRENT_FLOOR = 1e-3
+"""A pour is used by a loop when one of its cells carries at least this share of
+the loop current (A per A)."""
+
+
+@dataclass(frozen=True)
+class PourUse:
+    """A pour that carries a loop's current: ``source`` its entry (``pour[i]``),
+    ``inductance`` the sum of its cells' terms (H; they add up with the other
+    segments' terms to the loop inductance), ``peak_current`` the largest cell
+    current per 1 A of loop current (A/A), ``cells`` the cells carrying at
+    least :data:`POUR_CURRENT_FLOOR` of it."""
+
+    source: str
+    name: str | None
+    net: str
+    layer: str
+    inductance: float  # H
+    peak_current: float  # A per A
+    cells: int
+
+
+def pour_uses(graph: CopperGraph, segments: np.ndarray, currents: np.ndarray,
+              terms: np.ndarray) -> tuple[PourUse, ...]:
+    """The pours among ``segments`` (indices into the graph) whose cells carry at
+    least :data:`POUR_CURRENT_FLOOR` of the loop current (``currents``, per 1 A),
+    with their cells' summed ``terms`` (H)."""
+    by_source: dict[str, list[int]] = {}
+    for k, s in enumerate(segments.tolist()):
+        seg = graph.segments[int(s)]
+        if seg.kind == "cell":
+            by_source.setdefault(seg.source, []).append(k)
+    out = []
+    for source in sorted(by_source, key=lambda src: int(src[5:-1])):
+        ks = np.asarray(by_source[source])
+        mag = np.abs(currents[ks])
+        if not mag.size or mag.max() < POUR_CURRENT_FLOOR:
+            continue
+        seg = graph.segments[int(segments[ks[0]])]
+        out.append(PourUse(source=source, name=seg.name, net=seg.net, layer=str(seg.layer),
+                           inductance=float(np.sum(terms[ks])), peak_current=float(mag.max()),
+                           cells=int(np.count_nonzero(mag >= POUR_CURRENT_FLOOR))))
+    return tuple(out)
 
 
 @dataclass(frozen=True)
@@ -86,10 +133,20 @@ class LoopResult:
     index: int = 0  # position among the routes file's [[loop]] entries
     line: int | None = None  # line of the entry in the routes file, where known
     self_terms: tuple[tuple[str, float], ...] = ()  # (segment id, L_ii |i_i|^2) per segment
+    pours: tuple[PourUse, ...] = ()  # the pours whose cells carry loop current, in file order
+    # (N,) current of every graph segment per 1 A of loop current (complex phasor at the
+    # loop's frequency, real at 0 Hz; 0 off the loop's nets), for pictures
+    currents: Any = field(default=None, compare=False, repr=False)
 
     @property
     def over_limit(self) -> bool:
         return self.within_limit is False
+
+
+def _all_currents(n: int, segments: Any, currents: np.ndarray) -> np.ndarray:
+    out = np.zeros(n, dtype=np.asarray(currents).dtype)
+    out[np.asarray(segments, dtype=np.int64)] = currents
+    return out
 
 
 def loop_results(
@@ -146,6 +203,9 @@ def loop_results(
             name=spec.name, inductance=sol.inductance, resistance=sol.resistance, frequency=f,
             limit=spec.limit, within_limit=within, contributors=contributors,
             pair_contributors=pairs, index=spec.index, line=spec.line, self_terms=self_terms,
+            pours=pour_uses(graph, np.asarray(segments), np.asarray(sol.currents),
+                            np.asarray(sol.segment_terms)),
+            currents=_all_currents(len(graph.segments), segments, sol.currents),
         ))
     return results
 
@@ -157,7 +217,8 @@ def loop_results(
 def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str, Any]:
     """The JSON report's entry for one loop (SI units; the keys of the
     command-line contract plus ``contributors`` and ``pair_contributors``, the
-    ``top`` largest terms each, with ``share`` = term / loop inductance)."""
+    ``top`` largest terms each, with ``share`` = term / loop inductance; and
+    ``pours`` when the loop's current uses a pour)."""
 
     def share(x: float) -> float | None:
         return x / r.inductance if r.inductance != 0 else None
@@ -177,7 +238,11 @@ def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str
             {"a": a, "b": b, "inductance": term, "share": share(term)}
             for a, b, term in r.pair_contributors[:top]
         ],
-    }
+    } | ({} if not r.pours else {"pours": [
+        {"pour": p.source, "name": p.name, "net": p.net, "layer": p.layer,
+         "inductance": p.inductance, "share": share(p.inductance),
+         "peak_current": p.peak_current, "cells": p.cells}
+        for p in r.pours]})
 
 
 def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:
@@ -226,6 +291,22 @@ def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]
         ]
         lines.append("  ".join(cells).rstrip())
     return "\n".join(lines) + "\n"
+
+
+def _pour_lines(r: LoopResult | Mapping[str, Any], value: float) -> list[str]:
+    """Text lines naming the pours a loop's current uses (from a result or its dict)."""
+    uses: list[Any] = ([{"pour": p.source, "name": p.name, "layer": p.layer,
+                         "inductance": p.inductance, "peak_current": p.peak_current}
+                        for p in r.pours]
+            if isinstance(r, LoopResult) else list(r.get("pours") or []))
+    out = []
+    for p in uses:
+        label = f"{p['name']} ({p['pour']})" if p.get("name") else str(p["pour"])
+        share = f", {100 * p['inductance'] / value:.0f}% of L" if value > 0 else ""
+        out.append(f"  pour {label} on layer {p['layer']}: cell terms "
+                   f"{engineering(p['inductance'], 'H')}{share}, peak cell current "
+                   f"{100 * p['peak_current']:.0f}% of the loop's")
+    return out
 
 
 def _contributor_rows(
@@ -293,5 +374,6 @@ def format_loop_contributors(
             cells = (row[0].ljust(widths[0]), row[1].rjust(widths[1]),
                      row[2].rjust(widths[2]), row[3])
             lines.append(("  " + "  ".join(cells)).rstrip())
+        lines += _pour_lines(r, value)
         blocks.append("\n".join(lines))
     return "\n\n".join(blocks) + "\n" if blocks else ""

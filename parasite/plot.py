@@ -5,7 +5,9 @@ they are modelled as, vias as discs of their diameter), one colour per layer; th
 shade of a segment shows a value per segment: its term of one loop's
 inductance (:mod:`parasite.loops`) or its partial self inductance. Pins carry
 their terminal's name; a scale bar gives the size. Return planes are ideal and
-are not drawn (the subtitle names them). The coupling view is a heat map of
+are not drawn (the subtitle names them); with a loop, each pour (meshed copper)
+is drawn as a heat map of the loop's current density at the loop's frequency,
+arrows along the current. The coupling view is a heat map of
 ``k_ij = L_ij / sqrt(L_ii L_jj)``, segments ordered by net.
 
 matplotlib is an optional dependency, imported only here and only when a
@@ -20,6 +22,7 @@ from __future__ import annotations
 import io
 import math
 from collections.abc import Sequence
+from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
@@ -353,6 +356,8 @@ def board_figure(
     else:
         ax = fig.subplots()
     _draw_board(ax, graph, values, vmax, value_label, fig)
+    if loop is not None and loop.currents is not None and any(s.kind == "cell" for s in graph.segments):
+        draw_pour_currents(ax, graph, loop, fig)
     planes = ", ".join(f"{p.layer} (net {p.net})" for p in graph.planes)
     subtitle = f"\nreturn plane{'s' if len(graph.planes) > 1 else ''}, not drawn: {planes}" \
         if planes else ""
@@ -364,6 +369,102 @@ def board_figure(
     fig.suptitle("estimates from closed-form formulas; confirm by measurement", fontsize=7,
                  color="0.35")
     return fig
+
+
+POUR_CMAP = "magma_r"
+POUR_GRID = 160  # samples of the heat map along the longer side of a pour
+POUR_ARROWS = 24  # arrows along the longer side of a pour
+
+
+@dataclass(frozen=True)
+class PourDensity:
+    """A loop's sheet current density in one pour on a regular grid (SI):
+    ``x`` (nx,), ``y`` (ny,) m; ``jx``, ``jy`` (ny, nx) A/m per 1 A of loop
+    current, complex phasors (NaN off the copper)."""
+
+    source: str
+    x: np.ndarray
+    y: np.ndarray
+    jx: np.ndarray
+    jy: np.ndarray
+
+    @property
+    def magnitude(self) -> np.ndarray:
+        """|J| (A/m): sqrt(|jx|^2 + |jy|^2)."""
+        return np.sqrt(np.abs(self.jx) ** 2 + np.abs(self.jy) ** 2)
+
+
+def pour_current_density(graph: CopperGraph, currents: np.ndarray,
+                         samples: int = POUR_GRID) -> list[PourDensity]:
+    """Sheet current density (A/m) of every pour from the cells' currents
+    (``currents``: (N,) per segment, A): each cell's current over its width,
+    x-cells giving ``jx`` and y-cells ``jy`` at their centres, linearly
+    interpolated (scipy's ``griddata``) onto a regular grid over the pour and
+    masked to its copper (shapely)."""
+    import shapely
+    from scipy.interpolate import griddata
+
+    currents = np.asarray(currents)
+    out = []
+    for pour in graph.routes.pours:
+        ks = [s.index for s in graph.segments if s.kind == "cell" and s.source == pour.key]
+        if not ks:
+            continue
+        idx = np.asarray(ks)
+        a = graph.arrays
+        centre = 0.5 * (a.start[idx, :2] + a.end[idx, :2])
+        along_x = np.abs(a.end[idx, 0] - a.start[idx, 0]) > 0
+        j = currents[idx] / a.width[idx]
+        x0, y0, x1, y1 = pour.polygon.bounds
+        step = max(x1 - x0, y1 - y0) / samples
+        x = np.arange(x0 + step / 2, x1, step)
+        y = np.arange(y0 + step / 2, y1, step)
+        gx, gy = np.meshgrid(x, y)
+        inside = shapely.covered_by(shapely.points(gx, gy), pour.polygon)
+        comps = []
+        for mask in (along_x, ~along_x):
+            if mask.sum() >= 3:
+                re = griddata(centre[mask], j[mask].real, (gx, gy), method="linear", fill_value=0.0)
+                im = griddata(centre[mask], np.asarray(j[mask]).imag, (gx, gy), method="linear",
+                              fill_value=0.0)
+                comps.append(re + 1j * im)
+            else:
+                comps.append(np.zeros(gx.shape, dtype=complex))
+        jx, jy = (np.where(inside, c, np.nan) for c in comps)
+        out.append(PourDensity(source=pour.key, x=x, y=y, jx=jx, jy=jy))
+    return out
+
+
+def draw_pour_currents(ax: Axes, graph: CopperGraph, loop: LoopResult, fig: Figure) -> None:
+    """Heat map of ``loop``'s sheet current density |J| (A/m per A) in every pour at
+    the loop's frequency, with arrows along the real part of J (the current's
+    direction at the phase of the loop current), under the traces."""
+    from matplotlib.colors import Normalize
+
+    dens = pour_current_density(graph, loop.currents)
+    if not dens:
+        return
+    vmax = max(float(np.nanmax(d.magnitude)) if np.isfinite(d.magnitude).any() else 0.0
+               for d in dens) or 1.0
+    norm = Normalize(vmin=0.0, vmax=vmax)
+    mesh = None
+    for d in dens:
+        mesh = ax.pcolormesh(1e3 * d.x, 1e3 * d.y, d.magnitude, cmap=POUR_CMAP, norm=norm,
+                             shading="nearest", zorder=0.2, gid=f"pour:{d.source}")
+        every = max(1, round(max(d.x.size, d.y.size) / POUR_ARROWS))
+        sx, sy = slice(every // 2, None, every), slice(every // 2, None, every)
+        u, v = d.jx.real[sy, sx], d.jy.real[sy, sx]
+        size = np.hypot(u, v)
+        shown = size > 0.02 * vmax  # arrows of one length: the heat map gives the size
+        u = np.where(shown, u / np.where(shown, size, 1.0), np.nan)
+        v = np.where(shown, v / np.where(shown, size, 1.0), np.nan)
+        ax.quiver(1e3 * d.x[sx], 1e3 * d.y[sy], u, v, color="white", alpha=0.8, zorder=0.3,
+                  angles="xy", pivot="mid", width=0.002, gid=f"pour-arrows:{d.source}")
+    if mesh is not None:
+        cb = fig.colorbar(mesh, ax=ax, fraction=0.025, pad=0.015, aspect=30)
+        f = "DC limit" if not loop.frequency else f"{loop.frequency:.3g} Hz"
+        cb.set_label(f"pour current density (A/m per A), {f}", fontsize=8)
+        cb.ax.tick_params(labelsize=7)
 
 
 def render(fig: Figure, fmt: PlotFormat) -> bytes:

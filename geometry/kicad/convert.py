@@ -18,15 +18,16 @@ What becomes what:
 * a matched pad (see :mod:`geometry.kicad.netmap`) is a ``[[pin]]`` at its
   centre, on a layer where its copper is;
 * zone fills on a layer named in ``planes`` make that layer an ideal return
-  plane of the zone's node; other fills are pours, refused until the routes
-  file carries them (or left out, and said so, with ``skip_pours``).
+  plane of the zone's node; every other filled island is a ``[[pour]]``
+  (outline and rebuilt holes, simplified to within ``POUR_TOLERANCE``, clipped
+  to ``area``), or left out, and said so, with ``skip_pours``.
 """
 
 from __future__ import annotations
 
 import math
 from collections import defaultdict
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -35,13 +36,17 @@ from geometry.kicad.board import Board, Pad, Track
 from geometry.kicad.errors import BoardError
 from geometry.kicad.netmap import NetMapping, PadTerminal, node_name_from
 from geometry.kicad.pads import covered_by, foot_on_bar, inside_pad, pad_bar
-from geometry.kicad.polygons import arc_polyline
+from geometry.kicad.polygons import FillPolygon, arc_polyline
 from geometry.model import canonical_net
 
 Point = tuple[float, float]
 DEFAULT_ARC_TOLERANCE = 5e-6  # m, largest distance of a chord from its arc
 DEFAULT_PLATING = 25e-6  # m, via wall (common practice, from memory: IPC class 2 averages 20-25 um)
 SNAP = 1e-9  # m
+POUR_TOLERANCE = 50e-6
+"""m: largest distance of a written pour's outline from the zone fill's (shapely's
+topology-preserving simplification: a fill's arcs come as many short chords, and
+every corner of a pour puts a line in its mesh)."""
 
 
 def layer_name(kicad: str) -> str:
@@ -73,6 +78,15 @@ class DraftVia:
 
 
 @dataclass(frozen=True)
+class DraftPour:
+    net: str
+    layer: str
+    outline: tuple[Point, ...]
+    holes: tuple[tuple[Point, ...], ...]
+    name: str
+
+
+@dataclass(frozen=True)
 class DraftPin:
     terminal: str
     at: Point
@@ -87,6 +101,7 @@ class Draft:
     traces: list[DraftTrace] = field(default_factory=list)
     vias: list[DraftVia] = field(default_factory=list)
     pins: list[DraftPin] = field(default_factory=list)
+    pours: list[DraftPour] = field(default_factory=list)
     loops: list[tuple[str, tuple[str, ...], dict[str, str]]] = field(default_factory=list)
     net_names: dict[str, str] = field(default_factory=dict)  # board net -> node
     notes: list[str] = field(default_factory=list)
@@ -145,6 +160,29 @@ def _inside(area: tuple[float, float, float, float] | None, pts: Sequence[Point]
     return all(x0 <= x <= x1 and y0 <= y <= y1 for x, y in pts)
 
 
+def _pours(net: str, layer: str, fill: FillPolygon, frame: Callable[[Point], Point],
+           area: tuple[float, float, float, float] | None, name: str) -> list[DraftPour]:
+    """One filled island as pours in the routes frame: simplified (``POUR_TOLERANCE``),
+    clipped to ``area``; pieces of no area dropped."""
+    import shapely
+    from shapely.geometry import Polygon, box
+
+    poly = Polygon([frame((float(x), float(y))) for x, y in fill.outline],
+                   [[frame((float(x), float(y))) for x, y in h] for h in fill.holes])
+    poly = shapely.make_valid(poly).simplify(POUR_TOLERANCE, preserve_topology=True)
+    if area is not None:
+        poly = poly.intersection(box(*area))
+    parts = [g for g in getattr(poly, "geoms", [poly]) if isinstance(g, Polygon) and g.area > 0]
+    out = []
+    for k, g in enumerate(parts):
+        g = shapely.geometry.polygon.orient(g)
+        ring = tuple((float(x), float(y)) for x, y in g.exterior.coords[:-1])
+        holes = tuple(tuple((float(x), float(y)) for x, y in h.coords[:-1]) for h in g.interiors)
+        out.append(DraftPour(net, layer_name(layer), ring, holes,
+                             name + (f", part {k + 1}" if len(parts) > 1 else "")))
+    return out
+
+
 def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
     """The routes entries of ``board``'s copper (``mapping`` None: no netlist)."""
     ox, oy = board.origin
@@ -176,10 +214,10 @@ def convert(board: Board, mapping: NetMapping | None, opts: Options) -> Draft:
                 draft.notes.append(f"zone fill of net {zone.net!r} on {layer} (line {zone.line}) left "
                                    f"out (--no-pours)")
             else:
-                raise BoardError(
-                    f"zone of net {zone.net!r} has filled copper on {layer}; pours cannot be written "
-                    f"to a routes file yet: name the layer with --plane if it is a solid return "
-                    f"plane, or leave the fills out with --no-pours", file=board.path, line=zone.line)
+                for k, fill in enumerate(fills):
+                    draft.pours.extend(_pours(nets[zone.net], layer, fill, frame, opts.area,
+                                              f"{zone.net} on {layer}, board line {zone.line}"
+                                              + (f", island {k + 1}" if len(fills) > 1 else "")))
     for name, plane_node in planes.items():
         if plane_node is None:
             raise BoardError(f"--plane {name}: no filled zone of an imported net on that layer",

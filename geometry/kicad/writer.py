@@ -70,6 +70,15 @@ def routes_text(draft: Draft, board: Board, source: str, netlist: str | None) ->
         if v.wall is not None:
             out.append(f"wall = {_mm(v.wall)}")
         out.append("")
+    for pr in draft.pours:
+        out.append(f"[[pour]]  # {pr.name}")
+        out.append(f"net = {_s(pr.net)}")
+        out.append(f"layer = {_s(pr.layer)}")
+        out.append("outline = [" + ", ".join(_pt(p) for p in pr.outline) + "]")
+        if pr.holes:
+            out.append("holes = [" + ", ".join("[" + ", ".join(_pt(p) for p in h) + "]"
+                                               for h in pr.holes) + "]")
+        out.append("")
     for p in draft.pins:
         out.append("[[pin]]")
         out.append(f"terminal = {_s(p.terminal)}")

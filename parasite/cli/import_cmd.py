@@ -70,7 +70,8 @@ def _loops(values: tuple[str, ...]) -> list[tuple[str, tuple[str, ...], dict[str
 @click.option("--plane", "planes", multiple=True, metavar="LAYER",
               help="A KiCad layer (e.g. In1.Cu) whose zone fill is a solid return plane; repeatable.")
 @click.option("--no-pours", "no_pours", is_flag=True,
-              help="Leave zone fills out (listed in the file's notes) instead of refusing them.")
+              help="Leave zone fills out (listed in the file's notes) instead of writing them as "
+                   "[[pour]] entries.")
 @click.option("--loop", "loops", multiple=True, metavar="NAME=T1,T2,...[;limit=L][;frequency=F]",
               help="Write a [[loop]] through these terminals (as in the routes file), with an optional "
                    "budget and frequency (SPICE-style values, e.g. ';limit=3n;frequency=100meg'); "

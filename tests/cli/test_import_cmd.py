@@ -56,14 +56,27 @@ def test_pad_net_against_the_netlist(tmp_path: Path) -> None:
     assert not out.exists()
 
 
-def test_pours_are_refused_until_the_routes_file_has_them(tmp_path: Path) -> None:
+def test_zone_fills_become_pours(tmp_path: Path) -> None:
+    """Without --plane and --no-pours every zone fill is written as a
+    ``[[pour]]``: the In1.Cu ground fill and the B.Cu pour with its two
+    openings, rebuilt as holes of the sizes the fixture's generator drew
+    (2 x 2 mm and 2.5 x 2 mm: fixtures/kicad/make_boards.py; areas by
+    shapely/GEOS). The file loads as a routes file."""
+    from shapely.geometry import Polygon
+
+    from geometry.routes import load_routes
+
     out = tmp_path / "x.routes.toml"
     code, _, err = run("import", str(BUCK), "--netlist", str(ROOT / "fixtures/demo/buck.cir"),
                        "--pin-map", str(KICAD / "buck.pinmap.toml"), "-o", str(out))
-    assert code == 1 and not out.exists()
-    zone_line = next(i for i, s in enumerate(BUCK.read_text().splitlines(), 1) if s.startswith("  (zone"))
-    assert re.search(rf"buck\.kicad_pcb:{zone_line}: error: zone of net 'GND' has filled copper on "
-                     r"In1\.Cu.*--plane.*--no-pours", err)
+    assert code == 0, err
+    routes = load_routes(out)
+    by_layer = {p.layer: p for p in routes.pours}
+    assert set(by_layer) == {"in1", "bottom"} and {p.net for p in routes.pours} == {"0"}
+    holes = sorted(Polygon(h).area * 1e6 for h in by_layer["bottom"].holes)
+    assert holes == pytest.approx([4.0, 5.0], rel=1e-9)
+    text = out.read_text()
+    assert "# GND on B.Cu, board line" in text
 
 
 @pytest.mark.parametrize(("cut", "words"), [

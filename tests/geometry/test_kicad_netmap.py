@@ -117,8 +117,14 @@ def test_plane_layer_takes_the_zone_net_and_refuses_tracks() -> None:
     zone = ('  (zone (net 2) (net_name "B") (layer "In1.Cu") (polygon (pts (xy 0 0) (xy 9 0) (xy 9 9)))\n'
             '    (filled_polygon (layer "In1.Cu") (pts (xy 0 0) (xy 9 0) (xy 9 9))))\n')
     board = read_board_text(HEAD + zone + ")", "z.kicad_pcb")
-    with pytest.raises(BoardError, match="pours cannot be written to a routes file yet"):
-        import_board(board, None, Options())
+    _, draft = import_board(board, None, Options())  # without --plane: the fill is a pour
+    (pour,) = draft.pours
+    assert (pour.net, pour.layer) == ("b", "in1")
+    # KiCad's y turned upward from the board's auxiliary axis origin (0, 50 mm)
+    expected = sorted([(0.0, 50e-3), (9e-3, 50e-3), (9e-3, 41e-3)])
+    assert all(p == pytest.approx(q, abs=1e-12)
+               for p, q in zip(sorted(pour.outline), expected, strict=True))
+    assert not [la for la in draft.layers if la[0] == "in1"][0][3]  # and not a plane
     _, draft = import_board(board, None, Options(planes=("In1.Cu",)))
     assert [la for la in draft.layers if la[0] == "in1"][0][3] == "b"
     track = '  (segment (start 0 0) (end 1 0) (width 0.2) (layer "In1.Cu") (net 1))\n'
