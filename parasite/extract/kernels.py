@@ -101,29 +101,29 @@ def far_value(rule: int, a: int, b: int, mid: np.ndarray, d: np.ndarray, w_dir: 
                 acc += (_GW[k, p] * _GW[k, q]) / np.sqrt(
                     base + xl * mb + xl * xl * bb - 2.0 * xk * xl * ab)
         return MU0_4PI * ab * acc
-    pm = np.empty(4)
-    pa = np.empty(4)
-    pb = np.empty(4)
-    var = np.empty(4)
-    for s in range(4):
-        src = w_dir if s % 2 == 0 else t_dir
-        c = a if s < 2 else b
-        pm[s] = src[c, 0] * mx + src[c, 1] * my + src[c, 2] * mzz
-        pa[s] = _dot(src, c, d, a)
-        pb[s] = _dot(src, c, d, b)
-        v = width[c] if s % 2 == 0 else thickness[c]
-        var[s] = v * v / 12.0
-    trc = var[0] + var[1] + var[2] + var[3]
+    # projections on the four section axes (w_a, t_a, w_b, t_b), scalars (no allocation)
+    pm0 = w_dir[a, 0] * mx + w_dir[a, 1] * my + w_dir[a, 2] * mzz
+    pm1 = t_dir[a, 0] * mx + t_dir[a, 1] * my + t_dir[a, 2] * mzz
+    pm2 = w_dir[b, 0] * mx + w_dir[b, 1] * my + w_dir[b, 2] * mzz
+    pm3 = t_dir[b, 0] * mx + t_dir[b, 1] * my + t_dir[b, 2] * mzz
+    pa0, pa1 = _dot(w_dir, a, d, a), _dot(t_dir, a, d, a)
+    pa2, pa3 = _dot(w_dir, b, d, a), _dot(t_dir, b, d, a)
+    pb0, pb1 = _dot(w_dir, a, d, b), _dot(t_dir, a, d, b)
+    pb2, pb3 = _dot(w_dir, b, d, b), _dot(t_dir, b, d, b)
+    v0 = width[a] * width[a] / 12.0
+    v1 = thickness[a] * thickness[a] / 12.0
+    v2 = width[b] * width[b] / 12.0
+    v3 = thickness[b] * thickness[b] / 12.0
+    trc = v0 + v1 + v2 + v3
     for p in range(n):
         xk = _GX[k, p]
         base = mm + xk * ma + xk * xk * aa
+        k0, k1, k2, k3 = pm0 + xk * pa0, pm1 + xk * pa1, pm2 + xk * pa2, pm3 + xk * pa3
         for q in range(n):
             xl = _GX[k, q]
             r2 = base + xl * mb + xl * xl * bb - 2.0 * xk * xl * ab
-            rcr = 0.0
-            for s in range(4):
-                proj = pm[s] + xk * pa[s] - xl * pb[s]
-                rcr += var[s] * (proj * proj)
+            q0, q1, q2, q3 = k0 - xl * pb0, k1 - xl * pb1, k2 - xl * pb2, k3 - xl * pb3
+            rcr = v0 * (q0 * q0) + v1 * (q1 * q1) + v2 * (q2 * q2) + v3 * (q3 * q3)
             inv = 1.0 / np.sqrt(r2)
             inv2 = inv * inv
             acc += (_GW[k, p] * _GW[k, q]) * inv * (1.0 + 0.5 * inv2 * (3.0 * rcr * inv2 - trc))
@@ -141,13 +141,20 @@ def _terms(i: int, j: int, img: np.ndarray, mz: np.ndarray) -> tuple[int, int, i
     return ci, third, 1 if same else 0, 0
 
 
+@nb.njit(cache=True, inline="always")
+def _row(r0: int, m: int, r: int) -> int:
+    """Row of iteration r of m: both ends of the range alternately, so that the static
+    split of ``prange`` gives every core about the same number of pairs."""
+    return r0 + (r // 2 if r % 2 == 0 else m - 1 - r // 2)
+
+
 @nb.njit(cache=True, parallel=True)
 def count_near(r0: int, r1: int, n: int, img: np.ndarray, mz: np.ndarray, u: np.ndarray,
                mid: np.ndarray, length: np.ndarray, size: np.ndarray) -> np.ndarray:
     """Near conductor pairs in rows r0..r1-1 of the upper triangle (j > i), per row."""
     out = np.zeros(r1 - r0, dtype=np.int64)
     for r in nb.prange(r1 - r0):
-        i = r0 + r
+        i = _row(r0, r1 - r0, r)
         c = 0
         for j in range(i + 1, n):
             ci, third, _s, _z = _terms(i, j, img, mz)
@@ -157,7 +164,7 @@ def count_near(r0: int, r1: int, n: int, img: np.ndarray, mz: np.ndarray, u: np.
                 c += 1
             if third >= 0 and classify(third, j, u, mid, length, size) == NEAR:
                 c += 1
-        out[r] = c
+        out[i - r0] = c
     return out
 
 
@@ -168,8 +175,8 @@ def list_near(r0: int, r1: int, n: int, img: np.ndarray, mz: np.ndarray, u: np.n
     """Write the near conductor pairs of rows r0..r1-1 at ``offsets`` (row order, then j,
     then the term order of :func:`_terms`)."""
     for r in nb.prange(r1 - r0):
-        i = r0 + r
-        c = offsets[r]
+        i = _row(r0, r1 - r0, r)
+        c = offsets[i - r0]
         for j in range(i + 1, n):
             ci, third, _s, _z = _terms(i, j, img, mz)
             if classify(i, j, u, mid, length, size) == NEAR:
@@ -209,8 +216,8 @@ def fill_rows(L: np.ndarray, r0: int, r1: int, img: np.ndarray, mz: np.ndarray,
     read from ``near`` in the order written by :func:`list_near`."""
     n = L.shape[0]
     for r in nb.prange(r1 - r0):
-        i = r0 + r
-        c = offsets[r]
+        i = _row(r0, r1 - r0, r)
+        c = offsets[i - r0]
         for j in range(i + 1, n):
             ci, third, same, _z = _terms(i, j, img, mz)
             direct, c = _value(i, j, u, mid, d, length, size, w_dir, t_dir, width,
