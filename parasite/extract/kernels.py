@@ -148,6 +148,66 @@ def _row(r0: int, m: int, r: int) -> int:
     return r0 + (r // 2 if r % 2 == 0 else m - 1 - r // 2)
 
 
+@nb.njit(cache=True)
+def _entry_count(i: int, j: int, img: np.ndarray, mz: np.ndarray, u: np.ndarray,
+                 mid: np.ndarray, length: np.ndarray, size: np.ndarray) -> int:
+    """Near conductor pairs among the terms of entry (i, j)."""
+    ci, third, _s, _z = _terms(i, j, img, mz)
+    c = 0
+    if classify(i, j, u, mid, length, size) == NEAR:
+        c += 1
+    if ci >= 0 and classify(i, ci, u, mid, length, size) == NEAR:
+        c += 1
+    if third >= 0 and classify(third, j, u, mid, length, size) == NEAR:
+        c += 1
+    return c
+
+
+@nb.njit(cache=True)
+def _entry_list(i: int, j: int, img: np.ndarray, mz: np.ndarray, u: np.ndarray,
+                mid: np.ndarray, length: np.ndarray, size: np.ndarray, c: int,
+                pa: np.ndarray, pb: np.ndarray) -> int:
+    """Write the near conductor pairs of entry (i, j) from slot c; returns the next slot."""
+    ci, third, _s, _z = _terms(i, j, img, mz)
+    if classify(i, j, u, mid, length, size) == NEAR:
+        pa[c] = i
+        pb[c] = j
+        c += 1
+    if ci >= 0 and classify(i, ci, u, mid, length, size) == NEAR:
+        pa[c] = i
+        pb[c] = ci
+        c += 1
+    if third >= 0 and classify(third, j, u, mid, length, size) == NEAR:
+        pa[c] = third
+        pb[c] = j
+        c += 1
+    return c
+
+
+@nb.njit(cache=True)
+def _entry_value(i: int, j: int, img: np.ndarray, mz: np.ndarray, image_sign: float,
+                 u: np.ndarray, mid: np.ndarray, d: np.ndarray, length: np.ndarray,
+                 size: np.ndarray, w_dir: np.ndarray, t_dir: np.ndarray, width: np.ndarray,
+                 thickness: np.ndarray, near: np.ndarray, c: int) -> tuple[float, int]:
+    """L[i, j] (i != j): ``direct + image_sign/2 (M(i, j') + M(i', j))`` (images primed;
+    :mod:`parasite.extract.matrix`), near terms read from ``near`` from slot c."""
+    ci, third, same, _z = _terms(i, j, img, mz)
+    direct, c = _value(i, j, u, mid, d, length, size, w_dir, t_dir, width, thickness, near, c)
+    img_j = 0.0
+    img_i = 0.0
+    if ci >= 0:
+        img_j, c = _value(i, ci, u, mid, d, length, size, w_dir, t_dir, width, thickness,
+                          near, c)
+    if same:
+        img_i = img_j
+    elif third >= 0:
+        img_i, c = _value(third, j, u, mid, d, length, size, w_dir, t_dir, width, thickness,
+                          near, c)
+    if ci >= 0 or third >= 0:
+        return direct + image_sign * 0.5 * (img_j + img_i), c
+    return direct, c
+
+
 @nb.njit(cache=True, parallel=True)
 def count_near(r0: int, r1: int, n: int, img: np.ndarray, mz: np.ndarray, u: np.ndarray,
                mid: np.ndarray, length: np.ndarray, size: np.ndarray) -> np.ndarray:
@@ -157,13 +217,7 @@ def count_near(r0: int, r1: int, n: int, img: np.ndarray, mz: np.ndarray, u: np.
         i = _row(r0, r1 - r0, r)
         c = 0
         for j in range(i + 1, n):
-            ci, third, _s, _z = _terms(i, j, img, mz)
-            if classify(i, j, u, mid, length, size) == NEAR:
-                c += 1
-            if ci >= 0 and classify(i, ci, u, mid, length, size) == NEAR:
-                c += 1
-            if third >= 0 and classify(third, j, u, mid, length, size) == NEAR:
-                c += 1
+            c += _entry_count(i, j, img, mz, u, mid, length, size)
         out[i - r0] = c
     return out
 
@@ -178,19 +232,7 @@ def list_near(r0: int, r1: int, n: int, img: np.ndarray, mz: np.ndarray, u: np.n
         i = _row(r0, r1 - r0, r)
         c = offsets[i - r0]
         for j in range(i + 1, n):
-            ci, third, _s, _z = _terms(i, j, img, mz)
-            if classify(i, j, u, mid, length, size) == NEAR:
-                pa[c] = i
-                pb[c] = j
-                c += 1
-            if ci >= 0 and classify(i, ci, u, mid, length, size) == NEAR:
-                pa[c] = i
-                pb[c] = ci
-                c += 1
-            if third >= 0 and classify(third, j, u, mid, length, size) == NEAR:
-                pa[c] = third
-                pb[c] = j
-                c += 1
+            c = _entry_list(i, j, img, mz, u, mid, length, size, c, pa, pb)
 
 
 @nb.njit(cache=True)
@@ -211,28 +253,82 @@ def fill_rows(L: np.ndarray, r0: int, r1: int, img: np.ndarray, mz: np.ndarray,
               length: np.ndarray, size: np.ndarray, w_dir: np.ndarray, t_dir: np.ndarray,
               width: np.ndarray, thickness: np.ndarray, offsets: np.ndarray,
               near: np.ndarray) -> None:
-    """L[i, j] (j > i) for rows r0..r1-1: ``direct + image_sign/2 (M(i, j') + M(i', j))``
-    (images primed; :mod:`parasite.extract.matrix`), far terms computed here, near terms
-    read from ``near`` in the order written by :func:`list_near`."""
+    """L[i, j] (j > i) for rows r0..r1-1 (:func:`_entry_value`), near terms read from
+    ``near`` in the order written by :func:`list_near`."""
     n = L.shape[0]
     for r in nb.prange(r1 - r0):
         i = _row(r0, r1 - r0, r)
         c = offsets[i - r0]
         for j in range(i + 1, n):
-            ci, third, same, _z = _terms(i, j, img, mz)
-            direct, c = _value(i, j, u, mid, d, length, size, w_dir, t_dir, width,
-                               thickness, near, c)
-            img_j = 0.0
-            img_i = 0.0
-            if ci >= 0:
-                img_j, c = _value(i, ci, u, mid, d, length, size, w_dir, t_dir, width,
-                                  thickness, near, c)
-            if same:
-                img_i = img_j
-            elif third >= 0:
-                img_i, c = _value(third, j, u, mid, d, length, size, w_dir, t_dir, width,
-                                  thickness, near, c)
-            if ci >= 0 or third >= 0:
-                L[i, j] = direct + image_sign * 0.5 * (img_j + img_i)
-            else:
-                L[i, j] = direct
+            L[i, j], c = _entry_value(i, j, img, mz, image_sign, u, mid, d, length, size,
+                                      w_dir, t_dir, width, thickness, near, c)
+
+
+@nb.njit(cache=True, parallel=True)
+def count_near_pairs(ii: np.ndarray, jj: np.ndarray, img: np.ndarray, mz: np.ndarray,
+                     u: np.ndarray, mid: np.ndarray, length: np.ndarray,
+                     size: np.ndarray) -> np.ndarray:
+    """Near conductor pairs of each entry (ii[k], jj[k]), ii != jj."""
+    out = np.zeros(ii.size, dtype=np.int64)
+    for k in nb.prange(ii.size):
+        out[k] = _entry_count(ii[k], jj[k], img, mz, u, mid, length, size)
+    return out
+
+
+@nb.njit(cache=True, parallel=True)
+def list_near_pairs(ii: np.ndarray, jj: np.ndarray, img: np.ndarray, mz: np.ndarray,
+                    u: np.ndarray, mid: np.ndarray, length: np.ndarray, size: np.ndarray,
+                    offsets: np.ndarray, pa: np.ndarray, pb: np.ndarray) -> None:
+    """The near conductor pairs of the entries, at ``offsets``."""
+    for k in nb.prange(ii.size):
+        _entry_list(ii[k], jj[k], img, mz, u, mid, length, size, offsets[k], pa, pb)
+
+
+@nb.njit(cache=True, parallel=True)
+def fill_pairs(ii: np.ndarray, jj: np.ndarray, out: np.ndarray, img: np.ndarray,
+               mz: np.ndarray, image_sign: float, u: np.ndarray, mid: np.ndarray,
+               d: np.ndarray, length: np.ndarray, size: np.ndarray, w_dir: np.ndarray,
+               t_dir: np.ndarray, width: np.ndarray, thickness: np.ndarray,
+               offsets: np.ndarray, near: np.ndarray) -> None:
+    """out[k] = L[ii[k], jj[k]] (ii != jj), as :func:`fill_rows`."""
+    for k in nb.prange(ii.size):
+        out[k], _c = _entry_value(ii[k], jj[k], img, mz, image_sign, u, mid, d, length,
+                                  size, w_dir, t_dir, width, thickness, near, offsets[k])
+
+
+@nb.njit(cache=True)
+def _two_point(a: int, b: int, mid: np.ndarray, d: np.ndarray) -> float:
+    """Neumann's formula by 2-point Gauss-Legendre along both centre lines (H), the
+    points of a and b never coinciding being the caller's business."""
+    x = 0.5 / np.sqrt(3.0)
+    acc = 0.0
+    for sk in (-1.0, 1.0):
+        for sl in (-1.0, 1.0):
+            rx = mid[a, 0] + sk * x * d[a, 0] - mid[b, 0] - sl * x * d[b, 0]
+            ry = mid[a, 1] + sk * x * d[a, 1] - mid[b, 1] - sl * x * d[b, 1]
+            rz = mid[a, 2] + sk * x * d[a, 2] - mid[b, 2] - sl * x * d[b, 2]
+            acc += 0.25 / np.sqrt(rx * rx + ry * ry + rz * rz)
+    return MU0_4PI * _dot(d, a, d, b) * acc
+
+
+@nb.njit(cache=True, parallel=True)
+def two_point_entries(ii: np.ndarray, jj: np.ndarray, img: np.ndarray, image_sign: float,
+                      mid: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """What the point-source far field gives for entry (ii[k], jj[k]): the 2-point line
+    quadrature of every term, images symmetrised as in :func:`_entry_value`; on the
+    diagonal (ii == jj) the direct term keeps only the two cross terms of the segment's
+    own points (a point's own term is left out by the far-field sum)."""
+    out = np.empty(ii.size)
+    x = 0.5 / np.sqrt(3.0)
+    for k in nb.prange(ii.size):
+        i, j = ii[k], jj[k]
+        if i == j:
+            ln2 = _dot(d, i, d, i)
+            direct = MU0_4PI * ln2 * 0.5 / (2.0 * x * np.sqrt(ln2))
+        else:
+            direct = _two_point(i, j, mid, d)
+        ci, ri = img[j], img[i]
+        a = _two_point(i, ci, mid, d) if ci >= 0 else 0.0
+        b = _two_point(ri, j, mid, d) if ri >= 0 else 0.0
+        out[k] = direct + image_sign * 0.5 * (a + b)
+    return out
