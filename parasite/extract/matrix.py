@@ -80,6 +80,16 @@ def self_inductances(arrays: SegmentArrays) -> np.ndarray:
 def _setup(arrays: SegmentArrays) -> tuple[np.ndarray, _Conductors, np.ndarray, np.ndarray]:
     """Checked input -> (L with its diagonal set, the conductor table of segments and
     images, index of each segment's image or -1, mirror planes (m, NaN: none))."""
+    cond, img_index, mz, diag = tables(arrays)
+    n = len(arrays)
+    L = np.empty((n, n))
+    L[np.arange(n), np.arange(n)] = diag
+    return L, cond, img_index, mz
+
+
+def tables(arrays: SegmentArrays) -> tuple[_Conductors, np.ndarray, np.ndarray, np.ndarray]:
+    """Checked input -> (the conductor table of segments and images, index of each
+    segment's image or -1, mirror planes (m, NaN: none), the diagonal of L (H))."""
     _validate(arrays)
     n = len(arrays)
     rnd = np.asarray(arrays.round, dtype=bool)
@@ -93,13 +103,11 @@ def _setup(arrays: SegmentArrays) -> tuple[np.ndarray, _Conductors, np.ndarray, 
         np.asarray(arrays.width, float), np.asarray(arrays.thickness, float), rnd,
         np.asarray(arrays.radius, float), np.asarray(arrays.inner_radius, float))))
 
-    L = np.empty((n, n))
     diag = self_inductances(arrays)
     idx = np.nonzero(has)[0]
     if idx.size:
         diag[idx] += IMAGE_SIGN * _mutual(cond, idx, img_index[idx])
-    L[np.arange(n), np.arange(n)] = diag
-    return L, cond, img_index, mz
+    return cond, img_index, mz, diag
 
 
 def inductance_matrix(arrays: SegmentArrays, *,
