@@ -12,12 +12,12 @@ Two implementations of one interface (:class:`InductanceOperator`):
   centre lines (the rule the dense path uses for far pairs), that is the potential of
   point sources carrying the vector charges ``w_l d_b x_b`` (three densities) at the
   quadrature points of every segment, images included. Pairs whose horizontal
-  midpoint distance is below ``near_radius`` get their exact entry (the same
+  midpoint distance is below the sum of their near radii get their exact entry (the same
   formulas as the dense path, :mod:`parasite.extract.kernels`) and the far-field
   sum's own value for them is subtracted: ``L x = S x + F x - S_F x``.
 
-The near radius is set from the largest segment length l and section size h:
-``max(3.5 l, l + section_ratio h)``; beyond it every pair is far by the dense path's
+The near radius of a segment of length l and section size h is
+``max(3.5 l, l + section_ratio h)``; beyond the sum of two radii a pair is far by the dense path's
 rules (:data:`parasite.extract.pairs.FAR_RULES`) except for its second-order section
 correction, below ``(h/D)^2/6`` relative per pair, which the default
 ``section_ratio = 10`` bounds by 1.7e-3 per pair (the tests check the whole product
@@ -104,25 +104,36 @@ def entries(c: _Conductors, img: np.ndarray, mz: np.ndarray, ii: np.ndarray,
     return out
 
 
+def _near_pairs(xy: np.ndarray, radius: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs i < j whose horizontal midpoint distance is below radius_i + radius_j (a
+    superset of them: each segment's ball of twice its radius, found by a k-d tree)."""
+    from scipy.spatial import cKDTree
+
+    tree = cKDTree(xy)
+    hits = tree.query_ball_point(xy, 2.0 * radius, return_sorted=False)
+    counts = np.fromiter((len(h) for h in hits), dtype=np.int64, count=len(hits))
+    jj = np.fromiter((j for h in hits for j in h), dtype=np.int64, count=int(counts.sum()))
+    ii = np.repeat(np.arange(len(hits), dtype=np.int64), counts)
+    a, b = np.minimum(ii, jj), np.maximum(ii, jj)
+    keep = a < b
+    key = np.unique(a[keep] * len(hits) + b[keep])
+    return key // len(hits), key % len(hits)
+
+
 class FastInductance:
     """Near field exact and sparse, far field by the fast multipole method (module
     docstring). ``eps``: the requested relative precision of the far-field sums."""
 
     def __init__(self, arrays: SegmentArrays, *, section_ratio: float = 10.0,
                  eps: float = 1e-7) -> None:
-        from scipy.spatial import cKDTree
-
         c, img, mz, diag = tables(arrays)
         n = len(arrays)
         self.shape = (n, n)
         self.eps = eps
         self._c, self._img, self._mz, self._diag = c, img, mz, diag
-        lmax = float(np.max(c.length[:n]))
-        hmax = float(np.max(c.size[:n]))
-        self.near_radius = max(3.5 * lmax, lmax + section_ratio * hmax)
-        tree = cKDTree(c.mid[:n, :2])
-        pairs = tree.query_pairs(self.near_radius, output_type="ndarray").astype(np.int64)
-        ii, jj = pairs[:, 0].copy(), pairs[:, 1].copy()
+        radius = np.maximum(3.5 * c.length[:n], c.length[:n] + section_ratio * c.size[:n])
+        self.near_radius = radius
+        ii, jj = _near_pairs(c.mid[:n, :2], radius)
         exact = entries(c, img, mz, ii, jj)
         diag_idx = np.arange(n, dtype=np.int64)
         f_off = kernels.two_point_entries(ii, jj, img, IMAGE_SIGN, c.mid, c.d)
