@@ -165,7 +165,8 @@ class FastInductance:
     def block(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
         rr, cc = np.meshgrid(np.asarray(rows, np.int64), np.asarray(cols, np.int64),
                              indexing="ij")
-        ii, jj = rr.ravel(), cc.ravel()
+        # the upper triangle's formula for both (the dense matrix mirrors it)
+        ii, jj = np.minimum(rr, cc).ravel(), np.maximum(rr, cc).ravel()
         out = np.empty(ii.size)
         off = ii != jj
         out[off] = entries(self._c, self._img, self._mz, ii[off], jj[off])
