@@ -73,7 +73,7 @@ def sweep_case(cell: float) -> list[str]:
             t0 = time.perf_counter()
             got = port_sweep(*args, scheduler=client)
             wall = time.perf_counter() - t0
-        same = all(x.currents.tobytes() == y.currents.tobytes() for x, y in zip(ref, got))
+        same = all(x.currents.tobytes() == y.currents.tobytes() for x, y in zip(ref, got, strict=True))
         rows.append(f"| {workers} Dask worker{'s' if workers > 1 else ''} | {wall:.1f} | "
                     f"{'yes' if same else 'NO'} |")
     return [f"{len(a)} segments, {L.shape[0]}x{L.shape[0]} matrix, 10 points"] + rows
