@@ -41,7 +41,7 @@ from bench_extract import floor_time  # noqa: E402
 from geometry.mesh import mesh_polygon, stack_arrays  # noqa: E402
 from geometry.model import Copper, SegmentArrays  # noqa: E402
 from parasite.extract import inductance_matrix, resistances  # noqa: E402
-from parasite.extract.matrix import FAR_RULES  # noqa: E402
+from parasite.extract.pairs import FAR_RULES  # noqa: E402
 from parasite.extract.pour_solve import solve_port  # noqa: E402
 
 

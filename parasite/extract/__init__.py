@@ -12,6 +12,11 @@ Public API::
     resistances(arrays, copper, frequency=None) -> (N,) ohm (None: DC)
     skin_depth(resistivity, frequency, mu_r=1.0) -> m
 
+For large boards (docs/scale.md): :mod:`parasite.extract.operator` (the inductance as
+an operator: dense reference, near field + fast multipole far field),
+:mod:`parasite.extract.port_krylov` (iterative port solve),
+:mod:`parasite.extract.sweep` (frequency sweep through :mod:`parasite.schedule`).
+
 Which couplings are written is the network's business
 (:mod:`parasite.network.couplings`).
 """

@@ -1,8 +1,11 @@
 """Assembly of the partial inductance matrix of all segments (H), images included.
 
-The pairs are evaluated in numpy blocks, each pair by the formula for its kind
-(:mod:`parasite.extract.pairs`: exact or filament forms near, Neumann's formula
-by line quadrature far), over threads.
+Each pair is evaluated by the formula for its kind (:mod:`parasite.extract.pairs`:
+exact or filament forms near, Neumann's formula by line quadrature far): the far
+pairs in compiled loops over the rows on all cores (:mod:`parasite.extract.kernels`),
+the near ones listed there and evaluated in large numpy batches on threads. The
+numpy block arrangement of the same formulas is kept as the reference
+(:mod:`parasite.extract.matrix_numpy`).
 
 Return planes: ``L_ij = M(i, j) + M(i, image_j(j))`` with image factor -1
 (:mod:`parasite.extract.images`). When i and j mirror in different planes this
@@ -22,16 +25,13 @@ import numpy as np
 
 from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
+from parasite.extract import kernels
 from parasite.extract.bars import (
     bar_self_inductance,
 )
-from parasite.extract.filaments import MU0_4PI
 from parasite.extract.images import IMAGE_SIGN, mirror_points
 from parasite.extract.pairs import (
     BLOCK_PAIRS,
-    FAR_RULES,
-    PERPENDICULAR_COS,
-    PLAIN_SECTION_RATIO,
     _Conductors,
     _conductors,
     _mutual,
@@ -77,11 +77,19 @@ def self_inductances(arrays: SegmentArrays) -> np.ndarray:
     return out
 
 
-def inductance_matrix(arrays: SegmentArrays, *,
-                      progress: Callable[[int, int], None] | None = None) -> np.ndarray:
-    """Dense partial inductance matrix (N, N) in H, float64, exactly symmetric, images
-    included (module docstring). ``progress(pairs_done, pairs_total)`` is called after
-    each block (pairs counted with i <= j)."""
+def _setup(arrays: SegmentArrays) -> tuple[np.ndarray, _Conductors, np.ndarray, np.ndarray]:
+    """Checked input -> (L with its diagonal set, the conductor table of segments and
+    images, index of each segment's image or -1, mirror planes (m, NaN: none))."""
+    cond, img_index, mz, diag = tables(arrays)
+    n = len(arrays)
+    L = np.empty((n, n))
+    L[np.arange(n), np.arange(n)] = diag
+    return L, cond, img_index, mz
+
+
+def tables(arrays: SegmentArrays) -> tuple[_Conductors, np.ndarray, np.ndarray, np.ndarray]:
+    """Checked input -> (the conductor table of segments and images, index of each
+    segment's image or -1, mirror planes (m, NaN: none), the diagonal of L (H))."""
     _validate(arrays)
     n = len(arrays)
     rnd = np.asarray(arrays.round, dtype=bool)
@@ -95,42 +103,32 @@ def inductance_matrix(arrays: SegmentArrays, *,
         np.asarray(arrays.width, float), np.asarray(arrays.thickness, float), rnd,
         np.asarray(arrays.radius, float), np.asarray(arrays.inner_radius, float))))
 
-    total = n * (n + 1) // 2
-    L = np.empty((n, n))
     diag = self_inductances(arrays)
     idx = np.nonzero(has)[0]
     if idx.size:
         diag[idx] += IMAGE_SIGN * _mutual(cond, idx, img_index[idx])
-    L[np.arange(n), np.arange(n)] = diag
+    return cond, img_index, mz, diag
+
+
+def inductance_matrix(arrays: SegmentArrays, *,
+                      progress: Callable[[int, int], None] | None = None) -> np.ndarray:
+    """Dense partial inductance matrix (N, N) in H, float64, exactly symmetric, images
+    included (module docstring). ``progress(pairs_done, pairs_total)`` is called after
+    each block (pairs counted with i <= j)."""
+    L, cond, img_index, mz = _setup(arrays)
+    n = L.shape[0]
+    total = n * (n + 1) // 2
     done = n
     if progress is not None:
         progress(done, total)
 
-    step = max(1, BLOCK_PAIRS // max(n, 1))
-
-    def work(r0: int) -> int:
-        rows = np.arange(r0, min(n - 1, r0 + step))
-        vals = _block_values(cond, rows, np.arange(r0 + 1, n), img_index, mz)
-        for k, i in enumerate(rows.tolist()):  # one Python step per row, not per pair
-            L[i, i + 1:] = vals[k, i - r0:]
-        return int(np.sum(n - 1 - rows))
-
-    # numpy releases the GIL in its loops: blocks run on all cores; each block writes
-    # its own rows right of the diagonal, so they never overlap; the lower triangle is
-    # copied from the upper one afterwards, tile by tile
-    starts = list(range(0, n - 1, step))
-    workers = min(len(starts), _workers())
-    if workers <= 1:
-        for r0 in starts:
-            done += work(r0)
-            if progress is not None:
-                progress(done, total)
-    else:
-        with ThreadPoolExecutor(max_workers=workers) as pool:
-            for count in pool.map(work, starts):
-                done += count
-                if progress is not None:
-                    progress(done, total)
+    # compiled loops over the pairs (parasite.extract.kernels), rows in parallel; the
+    # near pairs of each chunk of rows are listed, evaluated by the exact formulas in
+    # large numpy batches, then read back in order by the compiled fill
+    for r0, r1 in _row_chunks(n):
+        done += _fill_chunk(L, cond, r0, r1, img_index, mz)
+        if progress is not None:
+            progress(done, total)
     _mirror_upper(L)
     return L
 
@@ -148,72 +146,62 @@ def _mirror_upper(L: np.ndarray, tile: int = 256) -> None:
             L[r1:, r0:r1] = L[r0:r1, r1:].T
 
 
+CHUNK_PAIRS = 2_000_000
+"""Upper-triangle pairs per chunk of rows (bounds the list of near pairs; one progress
+call per chunk)."""
+
+
+def _row_chunks(n: int) -> list[tuple[int, int]]:
+    """Consecutive row ranges of the strict upper triangle with about CHUNK_PAIRS pairs."""
+    out = []
+    r0 = 0
+    while r0 < n - 1:
+        r1, acc = r0, 0
+        while r1 < n - 1 and (acc == 0 or acc + (n - 1 - r1) <= CHUNK_PAIRS):
+            acc += n - 1 - r1
+            r1 += 1
+        out.append((r0, r1))
+        r0 = r1
+    return out
+
+
+def _fill_chunk(L: np.ndarray, c: _Conductors, r0: int, r1: int, img: np.ndarray,
+                mz: np.ndarray) -> int:
+    """L[i, j] for j > i and rows r0..r1-1; returns the number of pairs done."""
+    n = L.shape[0]
+    counts = kernels.count_near(r0, r1, n, img, mz, c.u, c.mid, c.length, c.size)
+    offsets = np.concatenate([[0], np.cumsum(counts)])
+    pa = np.empty(int(offsets[-1]), dtype=np.int64)
+    pb = np.empty_like(pa)
+    kernels.list_near(r0, r1, n, img, mz, c.u, c.mid, c.length, c.size, offsets, pa, pb)
+    near = near_values(c, pa, pb)
+    kernels.fill_rows(L, r0, r1, img, mz, IMAGE_SIGN, c.u, c.mid, c.d, c.length, c.size,
+                      c.w_dir, c.t_dir, c.width, c.thickness, offsets, near)
+    return (r1 - r0) * (n - 1) - (r1 - r0) * (r0 + r1 - 1) // 2
+
+
+def near_values(c: _Conductors, pa: np.ndarray, pb: np.ndarray) -> np.ndarray:
+    """:func:`parasite.extract.pairs._mutual` of the pairs (pa[k], pb[k]) in batches of
+    BLOCK_PAIRS, on threads (numpy releases the GIL in its loops)."""
+    out = np.empty(pa.size)
+    starts = list(range(0, pa.size, BLOCK_PAIRS))
+
+    def work(s: int) -> None:
+        out[s:s + BLOCK_PAIRS] = _mutual(c, pa[s:s + BLOCK_PAIRS], pb[s:s + BLOCK_PAIRS])
+
+    workers = min(len(starts), _workers())
+    if workers <= 1:
+        for s in starts:
+            work(s)
+    else:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            list(pool.map(work, starts))
+    return out
+
+
 def _workers() -> int:
     """Threads for the assembly: the cores this process may use."""
     try:
         return max(1, len(os.sched_getaffinity(0)))
     except AttributeError:  # not on Linux
         return max(1, os.cpu_count() or 1)
-
-
-def _block_values(cond: _Conductors, rows: np.ndarray, cols: np.ndarray,
-                  img_index: np.ndarray, mz: np.ndarray) -> np.ndarray:
-    """L_ij for rows x cols (dense block): direct term plus the symmetrised image terms."""
-    direct = _block_mutual(cond, rows, cols)
-    ci, ri = img_index[cols], img_index[rows]
-    hc, hr = ci >= 0, ri >= 0
-    if not (np.any(hc) or np.any(hr)):
-        return direct
-    img_j = np.zeros_like(direct)
-    if np.any(hc):
-        img_j[:, hc] = _block_mutual(cond, rows, ci[hc])
-    same = hr[:, None] & hc[None, :] & (mz[rows][:, None] == mz[cols][None, :])
-    img_i = np.where(same, img_j, 0.0)
-    need = hr[:, None] & ~same
-    if np.any(need):
-        rsel = np.nonzero(need.any(axis=1))[0]
-        # M(j, image i) = M(image i, j): rows are the images
-        part = _block_mutual(cond, ri[rsel], cols)
-        img_i[rsel] = np.where(need[rsel], part, img_i[rsel])
-    return direct + IMAGE_SIGN * 0.5 * (img_j + img_i)
-
-
-def _block_mutual(c: _Conductors, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
-    """Mutual inductance (H) of conductors rows x cols (dense block).
-
-    The bulk (pairs far apart compared with their lengths and 20 section sizes) is
-    evaluated densely with 2-point line quadrature, all bilinear quantities coming
-    from small matrix products; the remaining pairs go through :func:`_mutual`."""
-    ua, ub = c.u[rows], c.u[cols]
-    ma_, mb_ = c.mid[rows], c.mid[cols]
-    la, lb = c.length[rows][:, None], c.length[cols][None, :]
-    cos = ua @ ub.T
-    sa = np.einsum("ij,ij->i", ma_, ma_)[:, None]
-    sb = np.einsum("ij,ij->i", mb_, mb_)[None, :]
-    mm = np.maximum(sa + sb - 2.0 * (ma_ @ mb_.T), 0.0)  # |mid_a - mid_b|^2
-    m_ua = (
-        np.einsum("ij,ij->i", ma_, ua)[:, None] - (ua @ mb_.T))
-    m_ub = (ma_ @ ub.T) - np.einsum("ij,ij->i", mb_, ub)[None, :]
-    dm = np.sqrt(mm)
-    lmax = np.maximum(la, lb)
-    hmax = np.maximum(c.size[rows][:, None], c.size[cols][None, :])
-    live = np.abs(cos) >= PERPENDICULAR_COS
-    far = live & (dm >= FAR_RULES[0][0] * lmax) & (
-        dm - 0.5 * (la + lb) >= PLAIN_SECTION_RATIO * hmax)
-    x = 0.5 / np.sqrt(3.0)
-    ab = la * lb * cos
-    base = mm + (x * x) * (la * la + lb * lb)
-    pa = (2.0 * x) * la * m_ua
-    pb = (2.0 * x) * lb * m_ub
-    cross = (2.0 * x * x) * ab
-    with np.errstate(divide="ignore", invalid="ignore"):  # pairs not far: overwritten below
-        acc = 1.0 / np.sqrt(base + pa - pb - cross)
-        acc += 1.0 / np.sqrt(base + pa + pb + cross)
-        acc += 1.0 / np.sqrt(base - pa - pb + cross)
-        acc += 1.0 / np.sqrt(base - pa + pb - cross)
-    out = np.where(far, (0.25 * MU0_4PI) * ab * acc, 0.0)
-    rest = live & ~far
-    if np.any(rest):
-        ri, cj = np.nonzero(rest)
-        out[ri, cj] = _mutual(c, rows[ri], cols[cj])
-    return out

@@ -122,21 +122,13 @@ def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
                          shape=(nb, chords.size))
 
 
-def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.ndarray,
-               R: np.ndarray, frequency: float, plus: NodeSet, minus: NodeSet,
-               shorts: Sequence[NodeSet] = ()) -> PortSolution:
-    """Drive 1 A from contact ``plus`` to contact ``minus`` through the network (the
-    current enters the copper at ``plus``) and return the port impedance and
-    every branch current at ``frequency`` Hz (module docstring). ``L`` (N, N) H,
-    ``R`` (N,) ohm."""
-    if not frequency >= 0:
-        raise ExtractionError(f"frequency must be >= 0 Hz; got {frequency!r}", key="frequency")
-    L = np.asarray(L, dtype=float)
-    R = np.asarray(R, dtype=float)
+def port_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, plus: NodeSet,
+               minus: NodeSet, shorts: Sequence[NodeSet] = ()
+               ) -> tuple[np.ndarray, sp.csc_matrix | None]:
+    """The particular solution ``i_p`` (N,) of Kirchhoff's current law for 1 A from
+    ``plus`` to ``minus`` and the fundamental cycle matrix ``B`` (N, c), None without
+    cycles (module docstring): every branch current is ``i_p + B m``."""
     nb = len(node_from)
-    if L.shape != (nb, nb) or R.shape != (nb,):
-        raise ExtractionError(f"L must be ({nb}, {nb}) and R ({nb},); got {L.shape}, {R.shape}",
-                              key="segments")
     plus_a = np.atleast_1d(np.asarray(plus, dtype=np.int64))
     minus_a = np.atleast_1d(np.asarray(minus, dtype=np.int64))
     labels, n = merge_nodes(n_nodes, [plus_a, minus_a, *shorts])
@@ -166,11 +158,31 @@ def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.n
     lu = splu(A[:, tb].tocsc())
     i_p = np.zeros(nb)
     i_p[tb] = lu.solve(s[keep])
-    omega = 2.0 * math.pi * frequency
     if chords.size == 0:
+        return i_p, None
+    return i_p, _cycles(lu, A, tb, chords, nb)
+
+
+def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.ndarray,
+               R: np.ndarray, frequency: float, plus: NodeSet, minus: NodeSet,
+               shorts: Sequence[NodeSet] = ()) -> PortSolution:
+    """Drive 1 A from contact ``plus`` to contact ``minus`` through the network (the
+    current enters the copper at ``plus``) and return the port impedance and
+    every branch current at ``frequency`` Hz (module docstring). ``L`` (N, N) H,
+    ``R`` (N,) ohm."""
+    if not frequency >= 0:
+        raise ExtractionError(f"frequency must be >= 0 Hz; got {frequency!r}", key="frequency")
+    L = np.asarray(L, dtype=float)
+    R = np.asarray(R, dtype=float)
+    nb = len(node_from)
+    if L.shape != (nb, nb) or R.shape != (nb,):
+        raise ExtractionError(f"L must be ({nb}, {nb}) and R ({nb},); got {L.shape}, {R.shape}",
+                              key="segments")
+    i_p, B = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
+    omega = 2.0 * math.pi * frequency
+    if B is None:
         i = i_p.astype(complex) if omega > 0 else i_p
     else:
-        B = _cycles(lu, A, tb, chords, nb)
         BtR = (B.T @ sp.diags(R)).tocsr()
         rhs_r = BtR @ i_p
         if omega == 0.0:

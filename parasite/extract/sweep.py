@@ -1,0 +1,36 @@
+"""A port's impedance over a list of frequencies, the points scheduled independently.
+
+Each frequency is one :func:`parasite.extract.pour_solve.solve_port` (R + j omega L
+current division, unit port current); the points run through
+:func:`parasite.schedule.run_map`: in this process by default, or on a Dask cluster
+(``scheduler`` address or ``PARASITE_SCHEDULER``), with the same numbers either way.
+SI units: Hz, H, ohm.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from functools import partial
+from typing import Any
+
+import numpy as np
+
+from parasite.extract.pour_solve import NodeSet, PortSolution, solve_port
+from parasite.schedule import run_map
+
+
+def _point(frequency: float, *, node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+           L: np.ndarray, R: np.ndarray, plus: NodeSet, minus: NodeSet,
+           shorts: Sequence[NodeSet]) -> PortSolution:
+    return solve_port(node_from, node_to, n_nodes, L, R, frequency, plus, minus, shorts)
+
+
+def port_sweep(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.ndarray,
+               R: np.ndarray, frequencies: Sequence[float], plus: NodeSet, minus: NodeSet,
+               shorts: Sequence[NodeSet] = (), *,
+               scheduler: str | Any | None = None) -> list[PortSolution]:
+    """:func:`solve_port` at every frequency (Hz), in the order given."""
+    task = partial(_point, node_from=np.asarray(node_from), node_to=np.asarray(node_to),
+                   n_nodes=int(n_nodes), L=np.asarray(L, dtype=float),
+                   R=np.asarray(R, dtype=float), plus=plus, minus=minus, shorts=tuple(shorts))
+    return run_map(task, [float(f) for f in frequencies], scheduler=scheduler)
