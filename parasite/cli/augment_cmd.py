@@ -6,6 +6,9 @@ import click
 
 from parasite.cli import reports_input_errors
 from parasite.cli.options import (
+    band_opt,
+    broadband_opt,
+    parse_band,
     frequency_opt,
     min_coupling_opt,
     netlist_arg,
@@ -22,6 +25,8 @@ from parasite.cli.options import (
               help="The augmented netlist: a file, or - for standard output.")
 @min_coupling_opt
 @frequency_opt
+@broadband_opt
+@band_opt
 @click.option("--keep-segments", is_flag=True,
               help="One R-L pair per segment instead of one per series chain.")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
@@ -29,8 +34,8 @@ from parasite.cli.options import (
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
-            frequency: float | None, keep_segments: bool, report_path: str | None,
-            quiet: bool) -> None:
+            frequency: float | None, broadband: bool, band: str | None, keep_segments: bool,
+            report_path: str | None, quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
 
@@ -41,11 +46,18 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     from parasite.outputs import check_output_path, write_output
     from parasite.report import report_json
 
+    from parasite.network.ladders import BroadbandOptions
+
+    fband = parse_band(band)
+    if (broadband or fband) and frequency is not None:
+        raise click.UsageError("--broadband starts from the DC resistance: give no --frequency with it")
+    wide = BroadbandOptions(band=fband) if fband else (BroadbandOptions() if broadband else None)
     inputs = [netlist, routes]
     check_output_path(output, inputs)
     check_output_path(report_path, inputs + [output])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
-                           keep_segments=keep_segments, progress=progress_callback(quiet))
+                           keep_segments=keep_segments, progress=progress_callback(quiet),
+                           broadband=wide)
     for w in result.report["warnings"]:
         click.echo(f"{routes}: warning: {w}", err=True)
     if report_path is not None:

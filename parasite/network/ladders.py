@@ -1,0 +1,229 @@
+"""Broadband branches: each branch of the network as a passive R-L ladder fitted to its
+R(f) and L(f) over a band (skin and proximity effect).
+
+Per segment, the change of R and of the self L with frequency comes from a 2D
+cross-section solve (:mod:`parasite.extract.crosssection`, Weeks et al. 1979):
+
+- a trace (bar) over or under a return plane: R(f) from the trace and a strip of the
+  plane facing it (``strip`` times the gap wider than the trace on each side; the
+  return current of a trace over a plane stays within a few gaps of it), driven as a
+  loop (+1, -1), so the plane's own loss is included; L(f) from the trace and its
+  mirror image (the method of images, as the DC partial values use: half the pair's
+  loop inductance), because a strip's uniform current at DC would make the change of
+  L depend on the strip's width (the plane's internal inductance is left out);
+- a trace with no plane: the bar alone (the change of its self L is independent of
+  the 1 m reference of the solve);
+- a solid round conductor (solid via, probe lead): the exact internal impedance
+  (:mod:`parasite.extract.wire_skin`, Bessel functions);
+- a hollow via barrel: no change (kept at its DC values; stated in the report).
+
+The branch's R(f) = R_dc + sum of the segments' R'(f) - R'(0) times length, and
+L(f) = L_dc + sum of (L'(f) - L'(0)) times length, so the DC partial values
+(3D closed forms, images) stay the low-frequency limit. The ladder
+(:func:`parasite.extract.ladder.fit_ladder`) is fitted with the fewest stages (2 to
+``max_stages``) that meet ``max_error``; the couplings go on its L0, the inductor
+carrying the external flux, with k recomputed from the mutual inductance and the
+L0 values. Sections repeated on the board are solved once (``SectionCache``).
+SI units throughout.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from parasite.errors import ExtractionError
+from parasite.extract.crosssection import Meshing, Rect, SectionCache, loop_impedance
+from parasite.extract.ladder import DEFAULT_BAND, Ladder, fit_ladder
+from parasite.extract.resistance import MU0
+from parasite.extract.wire_skin import round_wire_internal_impedance
+
+if TYPE_CHECKING:
+    from parasite.network import Network
+
+FAST_MESHING = Meshing(f_max=1e9, first=0.5, growth=1.5, max_cell=None, sectors=16)
+"""The cells of the broadband solves: first cell half a skin depth at the band's top,
+growing 1.5x inward (checked against the finer default meshing in
+tests/network/test_ladders.py)."""
+
+
+@dataclass(frozen=True)
+class BroadbandOptions:
+    """band (Hz), frequencies per decade of the fit, the fit's target relative error,
+    the largest number of ladder stages, and the plane strip's overhang in gaps."""
+    band: tuple[float, float] = DEFAULT_BAND
+    per_decade: int = 5
+    max_error: float = 0.01
+    max_stages: int = 6
+    strip: float = 5.0
+    first: float = FAST_MESHING.first
+    growth: float = FAST_MESHING.growth
+
+
+@dataclass(frozen=True)
+class BranchLadders:
+    """Per branch: the target R(f) (ohm) and L(f) (H) at ``frequency`` (Hz), the fitted
+    ladders, the couplings' k on the ladders' L0 (aligned with the network's selection),
+    the factor applied to the mutual inductances to keep the L0 matrix positive
+    definite (1: none), and the solve statistics."""
+    frequency: np.ndarray
+    resistance: np.ndarray  # (B, F) ohm
+    inductance: np.ndarray  # (B, F) H
+    ladders: list[Ladder]
+    k: np.ndarray
+    mutual_scale: float
+    solves: int
+    cache_hits: int
+    hollow_vias: int
+    band: tuple[float, float]
+
+    @property
+    def max_error_r(self) -> float:
+        return max((lad.max_error_r for lad in self.ladders), default=0.0)
+
+    @property
+    def max_error_l(self) -> float:
+        return max((lad.max_error_l for lad in self.ladders), default=0.0)
+
+    def report(self, branch_ids: list[str]) -> dict[str, Any]:
+        """The JSON-ready summary (SI)."""
+        per = [{"branch": bid, "stages": int(lad.r.size), "r0": lad.r0, "l0": lad.l0,
+                "r_dc": float(r[0]), "r_top": float(r[-1]), "l_dc": float(ind[0]), "l_top": float(ind[-1]),
+                "max_error_r": lad.max_error_r, "max_error_l": lad.max_error_l}
+               for bid, lad, r, ind in zip(branch_ids, self.ladders, self.resistance, self.inductance,
+                                           strict=True)]
+        return {"band": list(self.band), "max_error_r": self.max_error_r,
+                "max_error_l": self.max_error_l, "cross_section_solves": self.solves,
+                "cache_hits": self.cache_hits, "hollow_vias_at_dc": self.hollow_vias,
+                "mutual_scale": self.mutual_scale, "branches": per}
+
+    def header_lines(self) -> list[str]:
+        """Comment lines for the netlist's header."""
+        lines = [f"* broadband: R-L ladders fitted over {self.band[0]:g}-{self.band[1]:g} Hz "
+                 f"(cross-section solves {self.solves}); fit error at most "
+                 f"{100 * self.max_error_r:.2f}% on R, {100 * self.max_error_l:.2f}% on L"]
+        if self.mutual_scale < 1:
+            lines.append(f"* broadband: mutual inductances scaled by {self.mutual_scale:.4f} to keep "
+                         "the matrix of the ladders' L0 positive definite")
+        return lines
+
+
+def fit_frequencies(band: tuple[float, float], per_decade: int) -> np.ndarray:
+    """0 Hz (the DC reference) and log-spaced frequencies covering ``band`` (Hz)."""
+    lo, hi = band
+    n = max(int(np.ceil(per_decade * np.log10(hi / lo))) + 1, 12)
+    return np.concatenate([[0.0], np.geomspace(lo, hi, n)])
+
+
+def _plane_thickness(network: Network, face: float) -> float:
+    for pl in network.graph.planes:
+        if abs(pl.z_top - face) < 1e-12 or abs(pl.z_bottom - face) < 1e-12:
+            return float(pl.z_top - pl.z_bottom)
+    return 35e-6
+
+
+def segment_changes(network: Network, f: np.ndarray, opts: BroadbandOptions,
+                    cache: SectionCache) -> tuple[np.ndarray, np.ndarray, int]:
+    """(N, F) changes of R (ohm) and of the self L (H) of every segment from f = 0 to
+    ``f`` (module docstring), and the number of hollow round conductors left at DC."""
+    arrays = network.graph.arrays
+    n = len(arrays)
+    dr, dl = np.zeros((n, f.size)), np.zeros((n, f.size))
+    rho = network.extraction.inputs.routes.copper.resistivity
+    meshing = Meshing(f_max=float(f.max()), first=opts.first, growth=opts.growth)
+    length = arrays.length
+    hollow = 0
+    for i in np.flatnonzero(network.conducting):
+        if arrays.round[i]:
+            if arrays.inner_radius[i] > 0:
+                hollow += 1
+                continue
+            z = round_wire_internal_impedance(float(arrays.radius[i]), rho, f) * length[i]
+            dr[i] = z.real - z.real[0]
+            dl[i, 1:] = z.imag[1:] / (2 * np.pi * f[1:]) - MU0 / (8 * np.pi) * length[i]
+            continue
+        w, t = float(arrays.width[i]), float(arrays.thickness[i])
+        face = float(arrays.mirror_z[i])
+        trace = Rect(0.0, 0.0, w, t, rho)
+        if not np.isfinite(face):
+            res = cache.solve((trace,), f, meshing)
+            dr[i] = (res.resistance[:, 0, 0] - res.resistance[0, 0, 0]) * length[i]
+            dl[i] = (res.inductance[:, 0, 0] - res.inductance[0, 0, 0]) * length[i]
+            continue
+        zmid = 0.5 * (arrays.start[i, 2] + arrays.end[i, 2])
+        gap = max(abs(zmid - face) - t / 2, 1e-7)
+        tp = _plane_thickness(network, face)
+        m = Meshing(f_max=meshing.f_max, first=opts.first, growth=opts.growth,
+                    max_cell=max(w / 4, gap / 2))
+        plane = Rect(0.0, -(t / 2 + gap + tp / 2), w + 2 * opts.strip * gap, tp, rho)
+        r, _ = loop_impedance(cache.solve((trace, plane), f, m), (1.0, -1.0))
+        image = Rect(0.0, -(t + 2 * gap), w, t, rho)
+        _, ind = loop_impedance(cache.solve((trace, image), f, m), (1.0, -1.0))
+        dr[i] = (r - r[0]) * length[i]
+        dl[i] = 0.5 * (ind - ind[0]) * length[i]
+    return dr, dl, hollow
+
+
+def _fit(f: np.ndarray, r: np.ndarray, ind: np.ndarray, opts: BroadbandOptions) -> Ladder:
+    best = None
+    for stages in range(2, opts.max_stages + 1):
+        lad = fit_ladder(f, r, ind, stages=stages, band=opts.band)
+        if best is None or max(lad.max_error_r, lad.max_error_l) < max(best.max_error_r, best.max_error_l):
+            best = lad
+        if max(lad.max_error_r, lad.max_error_l) <= opts.max_error:
+            break
+    assert best is not None
+    return best
+
+
+def ladder_couplings(self_l: np.ndarray, l0: np.ndarray, i: np.ndarray, j: np.ndarray,
+                     k: np.ndarray) -> tuple[np.ndarray, float]:
+    """k of the couplings moved onto the ladders' L0: the mutual M = k sqrt(L_i L_j) of the
+    written DC matrix is kept (times a common factor <= 1 when needed so that the L0
+    matrix stays positive definite), k0 = M / sqrt(L0_i L0_j)."""
+    m = k * np.sqrt(self_l[i] * self_l[j])
+    k0 = m / np.sqrt(l0[i] * l0[j])
+    if k0.size == 0:
+        return k0, 1.0
+    d = 1 / np.sqrt(l0)
+    for scale in (1.0, 0.999, 0.99, 0.98, 0.95, 0.9, 0.8, 0.5, 0.0):
+        a = np.eye(l0.size)
+        a[i, j] = a[j, i] = scale * m * d[i] * d[j]
+        if np.linalg.eigvalsh(a)[0] > 1e-6:
+            return scale * k0, scale
+    raise ExtractionError("the ladders' L0 matrix is not positive definite", key="broadband")
+
+
+def branch_ladders(network: Network, opts: BroadbandOptions | None = None) -> BranchLadders:
+    """The ladders of every branch of ``network`` (module docstring). The network's R
+    must be the DC resistance (no ``--frequency``)."""
+    opts = opts or BroadbandOptions()
+    lo, hi = opts.band
+    if not (0 < lo < hi and np.isfinite(hi)):
+        raise ExtractionError(f"the band must be 0 < FMIN < FMAX, got {lo:g}, {hi:g} Hz", key="band")
+    if network.extraction.frequency is not None:
+        raise ExtractionError("a broadband model starts from the DC resistance: "
+                              "give no single --frequency with it", key="frequency")
+    f = fit_frequencies(opts.band, opts.per_decade)
+    cache = SectionCache()
+    dr, dl, hollow = segment_changes(network, f, opts, cache)
+    sel = network.selection
+    self_l = sel.self_inductance if sel is not None else np.diag(network.L)
+    rows_r, rows_l, ladders = [], [], []
+    for b, br in enumerate(network.branches):
+        seg = list(br.segments)
+        r = network.R[b] + dr[seg].sum(axis=0)
+        ind = self_l[b] + dl[seg].sum(axis=0)
+        rows_r.append(r)
+        rows_l.append(ind)
+        ladders.append(_fit(f[1:], r[1:], ind[1:], opts))
+    l0 = np.array([lad.l0 for lad in ladders])
+    if sel is not None:
+        k0, scale = ladder_couplings(np.asarray(self_l, float), l0, sel.i, sel.j, sel.k)
+    else:
+        k0, scale = np.zeros(0), 1.0
+    b = len(network.branches)
+    return BranchLadders(f, np.array(rows_r).reshape(b, f.size), np.array(rows_l).reshape(b, f.size),
+                         ladders, k0, scale, cache.misses, cache.hits, hollow, (float(lo), float(hi)))
