@@ -104,7 +104,7 @@ def fit_ladder(frequency: np.ndarray, resistance: np.ndarray, inductance: np.nda
         return np.concatenate([rf / r - 1, lf / ind - 1])
 
     sol = optimize.least_squares(residual, p0, method="lm", x_scale=1.0)
-    p = sol.x if sol.cost < 0.5 * np.sum(residual(p0) ** 2) else p0
+    p = np.clip(sol.x if sol.cost < 0.5 * np.sum(residual(p0) ** 2) else p0, -100.0, 100.0)
     rf, lf = _model(p, w, stages)
     rk, tk = np.exp(p[2:2 + stages]), np.exp(p[2 + stages:])
     order = np.argsort(tk)

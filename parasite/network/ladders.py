@@ -4,13 +4,17 @@ R(f) and L(f) over a band (skin and proximity effect).
 Per segment, the change of R and of the self L with frequency comes from a 2D
 cross-section solve (:mod:`parasite.extract.crosssection`, Weeks et al. 1979):
 
-- a trace (bar) over or under a return plane: R(f) from the trace and a strip of the
-  plane facing it (``strip`` times the gap wider than the trace on each side; the
-  return current of a trace over a plane stays within a few gaps of it), driven as a
-  loop (+1, -1), so the plane's own loss is included; L(f) from the trace and its
-  mirror image (the method of images, as the DC partial values use: half the pair's
-  loop inductance), because a strip's uniform current at DC would make the change of
-  L depend on the strip's width (the plane's internal inductance is left out);
+- a trace (bar) over or under a return plane: the trace and its mirror image (the
+  method of images, as the DC partial values use), driven as a loop (+1, -1); half
+  the pair's change of Z is the trace's own skin and proximity effect. The plane's
+  loss is added by scaling that change by (1 + q), q the ratio of the plane's excess
+  resistance to the trace's at the band's top, from a solve of the trace over a strip
+  of the plane (``strip`` gaps wider than the trace each side; the return current of
+  a trace over a plane stays within a few gaps of it). Scaling one change keeps R(f)
+  and L(f) consistent (a positive multiple of an R-L impedance is one); a strip's
+  uniform current at DC is not used as the reference, since it would make the change
+  of L depend on the strip's width. Approximation: the plane's change is taken to have
+  the trace's shape over frequency;
 - a trace with no plane: the bar alone (the change of its self L is independent of
   the 1 m reference of the solve);
 - a solid round conductor (solid via, probe lead): the exact internal impedance
@@ -158,11 +162,13 @@ def segment_changes(network: Network, f: np.ndarray, opts: BroadbandOptions,
         m = Meshing(f_max=meshing.f_max, first=opts.first, growth=opts.growth,
                     max_cell=max(w / 4, gap / 2))
         plane = Rect(0.0, -(t / 2 + gap + tp / 2), w + 2 * opts.strip * gap, tp, rho)
-        r, _ = loop_impedance(cache.solve((trace, plane), f, m), (1.0, -1.0))
+        r_strip, _ = loop_impedance(cache.solve((trace, plane), f, m), (1.0, -1.0))
         image = Rect(0.0, -(t + 2 * gap), w, t, rho)
-        _, ind = loop_impedance(cache.solve((trace, image), f, m), (1.0, -1.0))
-        dr[i] = (r - r[0]) * length[i]
-        dl[i] = 0.5 * (ind - ind[0]) * length[i]
+        r2, l2 = loop_impedance(cache.solve((trace, image), f, m), (1.0, -1.0))
+        d_r, d_l = 0.5 * (r2 - r2[0]), 0.5 * (l2 - l2[0])
+        q = max((r_strip[-1] - 0.5 * r2[-1]) / d_r[-1], 0.0) if d_r[-1] > 0 else 0.0
+        dr[i] = (1 + q) * d_r * length[i]
+        dl[i] = (1 + q) * d_l * length[i]
     return dr, dl, hollow
 
 
