@@ -24,7 +24,7 @@ cross-section solve (:mod:`parasite.extract.crosssection`, Weeks et al. 1979):
 The branch's R(f) = R_dc + sum of the segments' R'(f) - R'(0) times length, and
 L(f) = L_dc + sum of (L'(f) - L'(0)) times length, so the DC partial values
 (3D closed forms, images) stay the low-frequency limit. The ladder
-(:func:`parasite.extract.ladder.fit_ladder`) is fitted with the fewest stages (2 to
+(:func:`parasite.extract.ladder.fit_ladder`) is fitted with the fewest stages (3 to
 ``max_stages``) that meet ``max_error``; the couplings go on its L0, the inductor
 carrying the external flux, with k recomputed from the mutual inductance and the
 L0 values. Sections repeated on the board are solved once (``SectionCache``).
@@ -39,7 +39,14 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from parasite.errors import ExtractionError
-from parasite.extract.crosssection import Meshing, Rect, SectionCache, loop_impedance
+from parasite.extract.crosssection import (
+    Meshing,
+    Rect,
+    SectionCache,
+    loop_impedance,
+    solve_over_plane,
+    solve_section,
+)
 from parasite.extract.ladder import DEFAULT_BAND, Ladder, fit_ladder
 from parasite.extract.resistance import MU0
 from parasite.extract.wire_skin import round_wire_internal_impedance
@@ -60,7 +67,7 @@ class BroadbandOptions:
     band: tuple[float, float] = DEFAULT_BAND
     per_decade: int = 5
     max_error: float = 0.01
-    max_stages: int = 6
+    max_stages: int = 8
     strip: float = 5.0
     first: float = FAST_MESHING.first
     growth: float = FAST_MESHING.growth
@@ -129,9 +136,13 @@ def _plane_thickness(network: Network, face: float) -> float:
 
 
 def segment_changes(network: Network, f: np.ndarray, opts: BroadbandOptions,
-                    cache: SectionCache) -> tuple[np.ndarray, np.ndarray, int]:
+                    cache: SectionCache) -> tuple[np.ndarray, np.ndarray, int, int, int]:
     """(N, F) changes of R (ohm) and of the self L (H) of every segment from f = 0 to
-    ``f`` (module docstring), and the number of hollow round conductors left at DC."""
+    ``f`` (module docstring), the number of hollow round conductors left at DC, and the
+    number of distinct sections over a plane solved and of repeats taken from the cache
+    (keyed by width, thickness, gap and plane thickness to 1 nm)."""
+    solved: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
+    hits = 0
     arrays = network.graph.arrays
     n = len(arrays)
     dr, dl = np.zeros((n, f.size)), np.zeros((n, f.size))
@@ -159,22 +170,39 @@ def segment_changes(network: Network, f: np.ndarray, opts: BroadbandOptions,
         zmid = 0.5 * (arrays.start[i, 2] + arrays.end[i, 2])
         gap = max(abs(zmid - face) - t / 2, 1e-7)
         tp = _plane_thickness(network, face)
-        m = Meshing(f_max=meshing.f_max, first=opts.first, growth=opts.growth,
-                    max_cell=max(w / 4, gap / 2))
-        plane = Rect(0.0, -(t / 2 + gap + tp / 2), w + 2 * opts.strip * gap, tp, rho)
-        r_strip, _ = loop_impedance(cache.solve((trace, plane), f, m), (1.0, -1.0))
-        image = Rect(0.0, -(t + 2 * gap), w, t, rho)
-        r2, l2 = loop_impedance(cache.solve((trace, image), f, m), (1.0, -1.0))
-        d_r, d_l = 0.5 * (r2 - r2[0]), 0.5 * (l2 - l2[0])
-        q = max((r_strip[-1] - 0.5 * r2[-1]) / d_r[-1], 0.0) if d_r[-1] > 0 else 0.0
-        dr[i] = (1 + q) * d_r * length[i]
-        dl[i] = (1 + q) * d_l * length[i]
-    return dr, dl, hollow
+        key = tuple(round(v * 1e9) for v in (w, t, gap, tp))
+        if key not in solved:
+            solved[key] = _over_plane(trace, gap, tp, f, opts)
+        else:
+            hits += 1
+        d_r, d_l = solved[key]
+        dr[i] = d_r * length[i]
+        dl[i] = d_l * length[i]
+    return dr, dl, hollow, len(solved), hits
+
+
+def _over_plane(trace: Rect, gap: float, tp: float, f: np.ndarray,
+                opts: BroadbandOptions) -> tuple[np.ndarray, np.ndarray]:
+    """Changes of R' (ohm/m) and L' (H/m) from 0 Hz of a trace ``gap`` over a plane of
+    thickness ``tp`` (module docstring): the trace over its image, scaled by 1 + q."""
+    w, t = trace.width, trace.height
+    fine = Meshing(f_max=float(f.max()), first=opts.first, growth=opts.growth, max_cell=max(w / 4, gap / 2))
+    res = solve_over_plane(trace, gap, f, fine)
+    r, ind = res.resistance[:, 0, 0], res.inductance[:, 0, 0]
+    # the plane's share of the loss at the top of the band, on a coarser mesh (one frequency)
+    top = np.array([0.0, float(f.max())])
+    coarse = Meshing(f_max=float(f.max()), first=1.0, growth=1.8, max_cell=max(w / 4, gap / 2))
+    plane = Rect(0.0, -(t / 2 + gap + tp / 2), w + 2 * opts.strip * gap, tp, trace.resistivity)
+    r_strip, _ = loop_impedance(solve_section((trace, plane), top, coarse), (1.0, -1.0))
+    r_img = solve_over_plane(trace, gap, top, coarse).resistance[:, 0, 0]
+    excess = r_img[1] - r_img[0]
+    q = max((r_strip[1] - r_img[1]) / excess, 0.0) if excess > 0 else 0.0
+    return (1 + q) * (r - r[0]), (1 + q) * (ind - ind[0])
 
 
 def _fit(f: np.ndarray, r: np.ndarray, ind: np.ndarray, opts: BroadbandOptions) -> Ladder:
     best = None
-    for stages in range(2, opts.max_stages + 1):
+    for stages in range(3, opts.max_stages + 1):
         lad = fit_ladder(f, r, ind, stages=stages, band=opts.band)
         if best is None or max(lad.max_error_r, lad.max_error_l) < max(best.max_error_r, best.max_error_l):
             best = lad
@@ -214,17 +242,21 @@ def branch_ladders(network: Network, opts: BroadbandOptions | None = None) -> Br
                               "give no single --frequency with it", key="frequency")
     f = fit_frequencies(opts.band, opts.per_decade)
     cache = SectionCache()
-    dr, dl, hollow = segment_changes(network, f, opts, cache)
+    dr, dl, hollow, n_plane, plane_hits = segment_changes(network, f, opts, cache)
     sel = network.selection
     self_l = sel.self_inductance if sel is not None else np.diag(network.L)
     rows_r, rows_l, ladders = [], [], []
+    fits: dict[bytes, Ladder] = {}
     for b, br in enumerate(network.branches):
         seg = list(br.segments)
         r = network.R[b] + dr[seg].sum(axis=0)
         ind = self_l[b] + dl[seg].sum(axis=0)
         rows_r.append(r)
         rows_l.append(ind)
-        ladders.append(_fit(f[1:], r[1:], ind[1:], opts))
+        key = np.concatenate([r, ind]).astype(np.float32).tobytes()  # equal branches fit once
+        if key not in fits:
+            fits[key] = _fit(f[1:], r[1:], ind[1:], opts)
+        ladders.append(fits[key])
     l0 = np.array([lad.l0 for lad in ladders])
     if sel is not None:
         k0, scale = ladder_couplings(np.asarray(self_l, float), l0, sel.i, sel.j, sel.k)
@@ -232,4 +264,5 @@ def branch_ladders(network: Network, opts: BroadbandOptions | None = None) -> Br
         k0, scale = np.zeros(0), 1.0
     b = len(network.branches)
     return BranchLadders(f, np.array(rows_r).reshape(b, f.size), np.array(rows_l).reshape(b, f.size),
-                         ladders, k0, scale, cache.misses, cache.hits, hollow, (float(lo), float(hi)))
+                         ladders, k0, scale, cache.misses + n_plane,
+                         cache.hits + plane_hits, hollow, (float(lo), float(hi)))
