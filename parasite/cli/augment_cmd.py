@@ -8,10 +8,10 @@ from parasite.cli import reports_input_errors
 from parasite.cli.options import (
     band_opt,
     broadband_opt,
-    parse_band,
     frequency_opt,
     min_coupling_opt,
     netlist_arg,
+    parse_band,
     progress_callback,
     quiet_opt,
     routes_arg,
@@ -43,10 +43,9 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     measurement.
     """
     from parasite.augment import augment_files
+    from parasite.network.ladders import BroadbandOptions
     from parasite.outputs import check_output_path, write_output
     from parasite.report import report_json
-
-    from parasite.network.ladders import BroadbandOptions
 
     fband = parse_band(band)
     if (broadband or fband) and frequency is not None:
