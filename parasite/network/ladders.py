@@ -209,7 +209,20 @@ def _fit(f: np.ndarray, r: np.ndarray, ind: np.ndarray, opts: BroadbandOptions) 
         if max(lad.max_error_r, lad.max_error_l) <= opts.max_error:
             break
     assert best is not None
-    return best
+    return _prune(best, f, r, ind)
+
+
+def _prune(lad: Ladder, f: np.ndarray, r: np.ndarray, ind: np.ndarray) -> Ladder:
+    """Drop sections too small to matter (R_k below 1e-3 of R0 or L_k below 1e-4 of L0:
+    each changes R or L by at most that fraction) and restate the fit's errors: such
+    elements (down to 1e-22 H) only make a simulator's time steps collapse."""
+    keep = (lad.r >= 1e-3 * lad.r0) & (lad.l >= 1e-4 * lad.l0)
+    if keep.all():
+        return lad
+    out = Ladder(lad.r0, lad.l0, lad.r[keep], lad.l[keep], lad.band, 0.0, 0.0)
+    z = out.impedance(f)
+    return Ladder(out.r0, out.l0, out.r, out.l, lad.band, float(np.max(np.abs(z.real / r - 1))),
+                  float(np.max(np.abs(z.imag / (2 * np.pi * f) / ind - 1))))
 
 
 def ladder_couplings(self_l: np.ndarray, l0: np.ndarray, i: np.ndarray, j: np.ndarray,
