@@ -193,7 +193,7 @@ def _over_plane(trace: Rect, gap: float, tp: float, f: np.ndarray,
     top = np.array([0.0, float(f.max())])
     coarse = Meshing(f_max=float(f.max()), first=1.0, growth=1.8, max_cell=max(w / 4, gap / 2))
     plane = Rect(0.0, -(t / 2 + gap + tp / 2), w + 2 * opts.strip * gap, tp, trace.resistivity)
-    r_strip, _ = loop_impedance(solve_section((trace, plane), top, coarse), (1.0, -1.0))
+    r_strip, _ = loop_impedance(solve_section((trace, plane), top, coarse), np.array([1.0, -1.0]))
     r_img = solve_over_plane(trace, gap, top, coarse).resistance[:, 0, 0]
     excess = r_img[1] - r_img[0]
     q = max((r_strip[1] - r_img[1]) / excess, 0.0) if excess > 0 else 0.0
