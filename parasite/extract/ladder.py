@@ -103,7 +103,18 @@ def fit_ladder(frequency: np.ndarray, resistance: np.ndarray, inductance: np.nda
         rf, lf = _model(p, w, stages)
         return np.concatenate([rf / r - 1, lf / ind - 1])
 
-    sol = optimize.least_squares(residual, p0, method="lm", x_scale=1.0)
+    def jacobian(p: np.ndarray) -> np.ndarray:
+        p = np.clip(p, -100.0, 100.0)
+        rk, tk = np.exp(p[2:2 + stages]), np.exp(p[2 + stages:])
+        x2 = (w[:, None] * tk) ** 2
+        d = 1 + x2
+        jr = np.hstack([np.full((w.size, 1), np.exp(p[0])), np.zeros((w.size, 1)),
+                        rk * x2 / d, rk * 2 * x2 / d**2]) / r[:, None]
+        jl = np.hstack([np.zeros((w.size, 1)), np.full((w.size, 1), np.exp(p[1])),
+                        rk * tk / d, rk * tk * (1 - x2) / d**2]) / ind[:, None]
+        return np.vstack([jr, jl])
+
+    sol = optimize.least_squares(residual, p0, jac=jacobian, method="lm", x_scale=1.0)
     p = np.clip(sol.x if sol.cost < 0.5 * np.sum(residual(p0) ** 2) else p0, -100.0, 100.0)
     rf, lf = _model(p, w, stages)
     rk, tk = np.exp(p[2:2 + stages]), np.exp(p[2 + stages:])
