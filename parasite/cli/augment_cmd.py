@@ -24,13 +24,17 @@ from parasite.cli.options import (
 @frequency_opt
 @click.option("--keep-segments", is_flag=True,
               help="One R-L pair per segment instead of one per series chain.")
+@click.option("--model", "model", type=click.Choice(["auto", "full", "reduced"]), default="auto",
+              show_default=True,
+              help="The copper as every branch (full), as a reduced model at the ports "
+                   "(reduced), or whichever is smaller when the reduced one is accurate (auto).")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
               help="Also write the JSON report of this run to this file.")
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
-            frequency: float | None, keep_segments: bool, report_path: str | None,
-            quiet: bool) -> None:
+            frequency: float | None, keep_segments: bool, model: str,
+            report_path: str | None, quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
 
@@ -45,7 +49,8 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     check_output_path(output, inputs)
     check_output_path(report_path, inputs + [output])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
-                           keep_segments=keep_segments, progress=progress_callback(quiet))
+                           keep_segments=keep_segments, progress=progress_callback(quiet),
+                           model=model)
     for w in result.report["warnings"]:
         click.echo(f"{routes}: warning: {w}", err=True)
     if report_path is not None:
