@@ -234,8 +234,9 @@ def reduce_network(form: MeshForm, *, f_max: float = DEFAULT_FMAX,
                    points: tuple[float, ...] | None = None) -> ReducedModel:
     """The smallest reduced model (in blocks) whose port impedance matrix is
     within ``tolerance`` of the full network's on :func:`frequency_grid` of
-    ``f_max``. Expansion points default to ``s0 = 0, 2 pi f_max / 100,
-    2 pi f_max, inf`` (rad/s)."""
+    ``f_max``, checked after every block. Expansion points, visited in turn,
+    default to ``s0 = 0, inf, 2 pi f_max, 2 pi f_max / 100`` (rad/s); the first
+    block at ``s0 = 0`` makes the DC port resistance exact."""
     P = form.T.shape[1]
     c = form.C.shape[1]
     freqs = frequency_grid(f_max)
@@ -244,23 +245,26 @@ def reduce_network(form: MeshForm, *, f_max: float = DEFAULT_FMAX,
     limit = c if max_order is None else min(c, max_order)
     if points is None:
         w = 2 * math.pi * f_max
-        points = (0.0, w / 100.0, w, math.inf)
+        points = (0.0, math.inf, w, w / 100.0)
     Q = np.zeros((c, 0))
     if c and P:
         Rmm, Lmm = Rf[P:, P:], Lf[P:, P:]
         Rmu, Lmu = Rf[P:, :P], Lf[P:, :P]
         seqs = [_KrylovPoint(Rmm, Lmm, Rmu, Lmu, s0) for s0 in points]
-        while Q.shape[1] < limit:
-            grown = False
-            for seq in seqs:
+        idle = 0
+        while Q.shape[1] < limit and idle < len(seqs):
+            for seq in seqs:  # round-robin over the points, checking after every block
                 new = seq.next_block(Q)
-                if new.shape[1]:
-                    Q = np.hstack([Q, new])[:, :limit]
-                    grown = True
-            Rr, Lr = _project(form, Q)
-            err = port_error(port_impedance(Rr, Lr, P, freqs), Zf)
-            if err.max() <= tolerance or not grown:
-                break
+                if not new.shape[1]:
+                    idle += 1
+                    continue
+                idle = 0
+                Q = np.hstack([Q, new])[:, :limit]
+                Rr, Lr = _project(form, Q)
+                if (port_error(port_impedance(Rr, Lr, P, freqs), Zf).max() <= tolerance
+                        or Q.shape[1] >= limit):
+                    idle = len(seqs)
+                    break
     Rr, Lr = _project(form, Q)
     err = port_error(port_impedance(Rr, Lr, P, freqs), Zf)
     model = ReducedModel(form.port_nodes, form.reference_nodes, 0.5 * (Rr + Rr.T),
