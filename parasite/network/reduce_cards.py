@@ -151,7 +151,7 @@ def subcircuit_cards(model: ReducedModel, real: Realisation, name: str,
     cards = [f".subckt {name} " + " ".join(formal[n] for n in ext)]
     lnames = []
     for j in range(P):
-        pn, rn = formal[int(model.port_nodes[j])], formal[int(model.reference_nodes[j])]
+        pn = formal[int(model.port_nodes[j])]
         cards.append(f"* port {j + 1}: {node_name[int(model.port_nodes[j])]} "
                      f"against {node_name[int(model.reference_nodes[j])]}")
         cards.append(f"Lp{j + 1} {pn} y{j + 1} {_num(real.inductances[j])}")
