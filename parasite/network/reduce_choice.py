@@ -7,9 +7,10 @@ builds the reduced model (:mod:`parasite.network.reduce`) and its realisation
 (:mod:`parasite.network.reduce_cards`) from a :class:`parasite.network.Network`;
 :func:`choose_model` decides ``auto``: the reduced model when it is accurate
 (the written values within the tolerance of the full network up to ``f_max``),
-passive as written, and smaller (fewer inductors, coupling statements and
-resistors, which is what ngspice's factorisation time follows; see
-``benchmarks/bench_reduce.py``). Loops, probes and reports keep using the full
+passive as written, and at most half the size (inductors, coupling
+statements and resistors, which is what ngspice's factorisation time
+follows; the reduced model's couplings form one dense group, so a small
+saving is not worth it; see ``benchmarks/bench_reduce.py``). Loops, probes and reports keep using the full
 network; only the netlist gets the reduced model.
 """
 
@@ -34,6 +35,7 @@ if TYPE_CHECKING:
     from parasite.network import Network
 
 MODELS = ("auto", "full", "reduced")
+AUTO_RATIO = 0.5  # auto writes the reduced model when it has at most this fraction of the elements
 
 
 @dataclass
@@ -89,11 +91,11 @@ def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAUL
         return "reduced", red, "given (--model reduced)"
     if not red.acceptable:
         return "full", red, "the reduced model missed the tolerance or the passivity check"
-    if red.reduced_size < red.full_size:
+    if red.reduced_size <= AUTO_RATIO * red.full_size:
         return "reduced", red, (f"smaller: {red.reduced_size} elements against "
-                                f"{red.full_size} (inductors and coupling statements)")
-    return "full", red, (f"the full model is not larger: {red.full_size} elements against "
-                         f"{red.reduced_size} for the reduced one")
+                                f"{red.full_size} (inductors, couplings, resistors)")
+    return "full", red, (f"the reduced model is not less than half the size: {red.reduced_size} "
+                         f"elements against {red.full_size}")
 
 
 def reduction_report(chosen: str, red: Reduction | None, why: str) -> dict[str, Any]:
