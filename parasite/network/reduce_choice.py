@@ -86,6 +86,8 @@ def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAUL
         raise ValueError(f"model must be one of {', '.join(MODELS)}, not {model!r}")
     if model == "full" or not network.branches:
         return "full", None, "given (--model full)" if model == "full" else "no copper"
+    if model == "auto" and network.options.min_coupling is not None:
+        return "full", None, "--min-coupling given: it sets the full model's couplings"
     red = reduce_for_netlist(network, f_max=f_max, tolerance=tolerance)
     if model == "reduced":
         return "reduced", red, "given (--model reduced)"
