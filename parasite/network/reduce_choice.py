@@ -20,6 +20,9 @@ import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
+import numpy as np
+
+from parasite.errors import ExtractionError
 from parasite.network.ports import probe_nodes
 from parasite.network.reduce import (
     DEFAULT_FMAX,
@@ -88,7 +91,13 @@ def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAUL
         return "full", None, "given (--model full)" if model == "full" else "no copper"
     if model == "auto" and network.options.min_coupling is not None:
         return "full", None, "--min-coupling given: it sets the full model's couplings"
-    red = reduce_for_netlist(network, f_max=f_max, tolerance=tolerance)
+    try:
+        red = reduce_for_netlist(network, f_max=f_max, tolerance=tolerance)
+    except np.linalg.LinAlgError as exc:  # e.g. a branch without resistance: R not definite
+        if model == "auto":
+            return "full", None, f"no reduced model: {exc}"
+        raise ExtractionError(f"the copper cannot be reduced ({exc}); write it with --model full",
+                              file=network.extraction.inputs.routes_path) from exc
     if model == "reduced":
         return "reduced", red, "given (--model reduced)"
     if not red.acceptable:
