@@ -117,7 +117,7 @@ class _State:
         self.scale = UNIT_SCALE[routes.units]
         self.pin_nets = [canonical_net(n) for n in pin_nets]
         self.anchor_pins = anchor_pins
-        self.warnings: list[str] = []
+        self.warnings: list[str] = list(routes.warnings)
         self.layer_names = list(routes.layers)
         self.layer_id = {n: k for k, n in enumerate(self.layer_names)}
         self.by_height = sorted(routes.layers.values(), key=lambda la: la.z)

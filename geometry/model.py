@@ -194,6 +194,7 @@ class Routes:
     loops: tuple[LoopSpec, ...]
     nets: dict[str, NetOptions]
     probes: tuple[Probe, ...] = ()
+    warnings: tuple[str, ...] = ()  # unit traps noticed while reading (geometry.traps)
 
 
 @dataclass(frozen=True)

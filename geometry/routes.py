@@ -224,9 +224,21 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
     copper_nets = {t.net for t in traces} | {v.net for v in vias}
     copper_nets |= {la.plane for la in ctx.layers.values() if la.plane is not None}
     nets = _parse_nets(ctx, data["nets"], copper_nets) if "nets" in data else {}
+    _warn_board_size(ctx, traces, vias, pins)
     return Routes(path=ctx.file, units=ctx.units, snap=ctx.snap, copper=copper,
                   layers=ctx.layers, traces=tuple(traces), vias=tuple(vias), pins=tuple(pins),
-                  loops=tuple(loops), nets=nets, probes=tuple(parsed["probe"]))
+                  loops=tuple(loops), nets=nets, probes=tuple(parsed["probe"]),
+                  warnings=tuple(ctx.warnings))
+
+
+def _warn_board_size(ctx: Context, traces: list[Trace], vias: list[Via], pins: list[Pin]) -> None:
+    """A warning (:mod:`geometry.traps`) when the copper spans more than 1 m."""
+    from geometry.traps import board_size, board_span
+
+    points = [p for t in traces for p in t.points] + [v.at for v in vias] + [p.at for p in pins]
+    trap = board_size(board_span(points), ctx.units)
+    if trap is not None:
+        ctx.warn(("units",), trap)
 
 
 def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes:
