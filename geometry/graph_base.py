@@ -152,8 +152,8 @@ class _State:
     def line_of(self, source: str) -> int | None:
         kind, _, rest = source.partition("[")
         idx = int(rest.partition("]")[0])
-        if kind == "probe":
-            return self.r.probes[idx].line
+        if kind == "probe":  # by the entry's index: a run may attach some probes only
+            return next((p.line for p in self.r.probes if p.index == idx), None)
         entry = self.r.traces[idx] if kind == "trace" else self.r.vias[idx]
         return entry.line
 

@@ -42,6 +42,24 @@ min_coupling_opt = click.option(
          "matrix (0.01 for a board without loops).",
 )
 quiet_opt = click.option("--quiet", "-q", is_flag=True, help="No progress on standard error.")
+strict_opt = click.option(
+    "--strict", is_flag=True,
+    help="Treat every warning (unit traps, dangling vias, islands...) as an error: print them, "
+         "write nothing, exit 1. For makefiles.",
+)
+
+
+def echo_warnings(warnings: list[str], strict: bool, prefix: str = "") -> None:
+    """Print ``warnings`` on standard error; with ``strict``, as errors, then exit 1
+    (call it before anything is written)."""
+    import sys
+
+    for w in warnings:
+        text = w if ": warning: " in w else f"{prefix}warning: {w}"
+        click.echo(text.replace(": warning: ", ": error: ", 1) if strict else text, err=True)
+    if strict and warnings:
+        click.echo(f"error: {len(warnings)} warning(s) and --strict: nothing written", err=True)
+        sys.exit(1)
 
 
 def progress_callback(quiet: bool) -> Any:
