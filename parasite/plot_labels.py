@@ -1,0 +1,97 @@
+"""Labels of the board picture placed without overlap (:mod:`parasite.plot`).
+
+Each label (a pin's terminal, a probe's name) is tried at a list of places
+around its point, in order: beside it (up right, down right, up left, down
+left), then farther up or down in rows, where a thin leader line joins it to
+its point. The first place whose box, measured with the figure's renderer,
+stays inside the axes and overlaps neither the legend nor a label already placed is kept (greedy, in the order given). The
+figure is laid out once before, and its layout is then frozen, so that the
+boxes measured are the boxes drawn.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+ROW = 11.0  # points between rows of labels
+_NEAR = [(4.0, 3.0), (4.0, -13.0), (-4.0, 3.0), (-4.0, -13.0)]
+
+
+@dataclass(frozen=True)
+class Label:
+    text: str
+    at: tuple[float, float]  # data coordinates of the point labelled
+    gid: str
+    colour: str = "black"
+    size: float = 8.0
+
+
+def _places(max_rows: int = 12) -> list[tuple[float, float, bool]]:
+    """(dx, dy in points, leader) candidates, nearest first."""
+    out = [(dx, dy, False) for dx, dy in _NEAR]
+    for k in range(1, max_rows + 1):
+        for sign in (1.0, -1.0):
+            dy = 3.0 + k * ROW if sign > 0 else -13.0 - k * ROW
+            out += [(10.0, dy, True), (-10.0, dy, True)]
+    return out
+
+
+def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
+    """Annotate ``ax`` with ``labels``, none overlapping another (as far as the
+    candidate places allow); returns the annotations in the order given."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    canvas.draw()  # the layout, once
+    fig.set_layout_engine("none")  # frozen: what is measured below is what is drawn
+    renderer = canvas.get_renderer()
+    frame = ax.get_window_extent(renderer)
+    legend = ax.get_legend()
+    placed: list[Any] = [] if legend is None else [legend.get_window_extent(renderer)]
+    out = []
+    for lab in labels:
+        ann = ax.annotate(
+            lab.text, lab.at, xytext=_NEAR[0], textcoords="offset points", fontsize=lab.size,
+            color=lab.colour, zorder=31.0, gid=lab.gid, va="bottom", ha="left",
+            bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "alpha": 0.85,
+                  "linewidth": 0},
+        )
+        chosen = None
+        for dx, dy, leader in _places():
+            ann.set_ha("left" if dx > 0 else "right")
+            ann.xyann = (dx, dy)
+            box = ann.get_window_extent(renderer)
+            inside = (box.x0 >= frame.x0 and box.x1 <= frame.x1 and box.y0 >= frame.y0
+                      and box.y1 <= frame.y1)
+            if inside and not any(box.overlaps(other) for other in placed):
+                chosen = (box, leader)
+                break
+        if chosen is None:  # no free place: back beside the point
+            ann.set_ha("left")
+            ann.xyann = _NEAR[0]
+            chosen = (ann.get_window_extent(renderer), False)
+        box, leader = chosen
+        if leader:
+            from matplotlib.patches import FancyArrowPatch
+
+            ann.arrowprops = {"arrowstyle": "-", "linewidth": 0.5, "color": "0.35",
+                              "shrinkA": 0, "shrinkB": 2}
+            ann.arrow_patch = FancyArrowPatch((0, 0), (1, 1), **ann.arrowprops)
+        placed.append(box)
+        out.append(ann)
+    return out
+
+
+def boxes_overlap(fig: Any, gids: Sequence[str]) -> list[tuple[str, str]]:
+    """Pairs of drawn texts (by gid) whose boxes overlap, after drawing ``fig``
+    (for tests and checks)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    texts = [t for ax in fig.axes for t in ax.texts if t.get_gid() in set(gids)]
+    boxes = [(t.get_gid(), t.get_window_extent(renderer)) for t in texts]
+    return [(a, b) for i, (a, ba) in enumerate(boxes) for b, bb in boxes[i + 1:] if ba.overlaps(bb)]

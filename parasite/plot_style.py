@@ -1,0 +1,55 @@
+"""The look of the board pictures (:mod:`parasite.plot`): the project's layer
+palette, names that read as names, and pin labels that do not overlap.
+
+Palette: layers take colours in stack order (top first) from a sequence of
+hues that stay distinct under the common colour-vision deficiencies (the
+Okabe-Ito set: M. Okabe and K. Ito, "Color Universal Design (CUD): how to make
+figures and presentations that are friendly to colorblind people", 2008),
+ordered here so that neighbouring layers differ in lightness as well as hue.
+Each layer's shade runs from a pale tint (no share of the value) to a dark
+shade of its hue (the largest share). Vias have their own grey scale, with
+their own range; probe leads are drawn in one fixed colour, named, on no
+scale. Labels are placed by :mod:`parasite.plot_labels`.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+
+# Hues (sRGB hex), top layer first: bluish green, reddish purple, orange, sky
+# blue, vermillion, blue, yellow (Okabe and Ito 2008).
+LAYER_HUES = ("#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#D55E00", "#0072B2", "#F0E442")
+PROBE_COLOUR = "#222222"  # probe leads: near black, dash-dot, labelled with the probe's name
+_NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\Z")
+
+
+def layer_cmap(hue: str) -> Any:
+    """A sequential colour map for one layer: a pale tint of ``hue`` at 0, the
+    hue at 0.55, a dark shade (40% black) at 1."""
+    from matplotlib.colors import LinearSegmentedColormap, to_rgb
+
+    rgb = np.array(to_rgb(hue))
+    tint = 1.0 - 0.18 * (1.0 - rgb)  # 18% of the hue over white
+    shade = 0.6 * rgb
+    return LinearSegmentedColormap.from_list(f"layer {hue}", [(0.0, tint), (0.55, rgb), (1.0, shade)])
+
+
+def layer_colours(layer_z: Sequence[tuple[str, float]]) -> dict[str, str]:
+    """The hue of each trace layer ``(name, z in m)``: in stack order from the
+    top (highest z first); the sequence repeats past seven layers."""
+    order = sorted(layer_z, key=lambda nz: -nz[1])
+    return {name: LAYER_HUES[k % len(LAYER_HUES)] for k, (name, _z) in enumerate(order)}
+
+
+def segment_label(segment_id: str) -> str:
+    """A segment id for the picture: ``<net>.<n>`` where the net's name reads
+    as a number gets the net spelt out, so that ``0.4`` (segment 4 of net 0)
+    is not read as a number: ``gnd.4`` for net 0, ``net12.3`` for net 12."""
+    net, dot, n = segment_id.rpartition(".")
+    if not dot or not _NUMBER.match(net):
+        return segment_id
+    return f"gnd.{n}" if net == "0" else f"net{net}.{n}"
