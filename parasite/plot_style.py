@@ -20,9 +20,10 @@ from typing import Any
 
 import numpy as np
 
-# Hues (sRGB hex), top layer first: bluish green, reddish purple, orange, sky
-# blue, vermillion, blue, yellow (Okabe and Ito 2008).
-LAYER_HUES = ("#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#D55E00", "#0072B2", "#F0E442")
+# Hues (sRGB hex), top layer first: bluish green, orange, blue, yellow,
+# vermillion, sky blue, reddish purple (Okabe and Ito 2008), ordered so that
+# each of the first six differs from the next by at least 12 in CIE L*.
+LAYER_HUES = ("#009E73", "#E69F00", "#0072B2", "#F0E442", "#D55E00", "#56B4E9", "#CC79A7")
 PROBE_COLOUR = "#222222"  # probe leads: near black, dash-dot, labelled with the probe's name
 _NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\Z")
 
