@@ -4,9 +4,10 @@ Each label (a pin's terminal, a probe's name) is tried at a list of places
 around its point, in order: beside it (up right, down right, up left, down
 left), then farther up or down in rows, where a thin leader line joins it to
 its point. The first place whose box, measured with the figure's renderer,
-stays inside the axes and overlaps neither the legend nor a label already placed is kept (greedy, in the order given). The
-figure is laid out once before, and its layout is then frozen, so that the
-boxes measured are the boxes drawn.
+stays inside the axes and overlaps neither the legend nor a label already
+placed is kept (greedy, in the order given). The figure is laid out once
+before, and its layout is then frozen, so that the boxes measured are the
+boxes drawn.
 """
 
 from __future__ import annotations
