@@ -294,7 +294,7 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
             cb.ax.tick_params(labelsize=7)
         else:
             cb.ax.set_yticks([])
-    handles = [Patch(facecolor=hues[name], edgecolor=cmaps[name](1.0), label=f"layer {name}")
+    handles: list[Any] = [Patch(facecolor=hues[name], edgecolor=cmaps[name](1.0), label=f"layer {name}")
                for name in drawn]
     if round_segments:
         handles.append(Patch(facecolor="0.6", edgecolor="black", label="vias"))

@@ -36,7 +36,8 @@ def layer_cmap(hue: str) -> Any:
     rgb = np.array(to_rgb(hue))
     tint = 1.0 - 0.18 * (1.0 - rgb)  # 18% of the hue over white
     shade = 0.6 * rgb
-    return LinearSegmentedColormap.from_list(f"layer {hue}", [(0.0, tint), (0.55, rgb), (1.0, shade)])
+    stops = [(0.0, tuple(tint)), (0.55, tuple(rgb)), (1.0, tuple(shade))]
+    return LinearSegmentedColormap.from_list(f"layer {hue}", stops)
 
 
 def layer_colours(layer_z: Sequence[tuple[str, float]]) -> dict[str, str]:
