@@ -108,24 +108,6 @@ def _format_length_mm(mm: float) -> str:
     return f"{mm * 1e3:g} um" if mm < 1 else f"{mm:g} mm"
 
 
-def label_rows(points: np.ndarray, radius: float) -> list[int]:  # kept for callers
-    """Row of each point's label, so that labels of points closer than
-    ``radius`` (same unit as ``points``, chained) stack instead of overlapping:
-    0 for the first point of each group, 1 for the next, and so on."""
-    from scipy.sparse.csgraph import connected_components
-
-    points = np.asarray(points, dtype=float).reshape(-1, 2)
-    if len(points) == 0:
-        return []
-    d = np.hypot(*(points[:, None, :] - points[None, :, :]).transpose(2, 0, 1))
-    _, group = connected_components(d < radius, directed=False)
-    rows = np.zeros(len(points), dtype=int)
-    for g in np.unique(group):
-        members = np.flatnonzero(group == g)
-        rows[members] = np.arange(len(members))
-    return rows.tolist()
-
-
 def coupling_matrix(L: np.ndarray) -> np.ndarray:
     """k_ij = L_ij / sqrt(L_ii L_jj) (dimensionless; the diagonal is 1)."""
     d = np.sqrt(np.diag(L))
@@ -181,13 +163,12 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
     """Draw the board on ``ax``; returns the labels to place last
     (:func:`parasite.plot_labels.place_labels`)."""
     import matplotlib as mpl
-    from matplotlib.cm import ScalarMappable
     from matplotlib.colors import Normalize
-    from matplotlib.patches import Circle, Patch, Polygon
+    from matplotlib.patches import Circle, Polygon
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
     from parasite.plot_labels import Label
-    from parasite.plot_style import PROBE_COLOUR, layer_cmap, layer_colours
+    from parasite.plot_style import PROBE_COLOUR, draw_keys, layer_cmap, layer_colours
 
     norm = Normalize(vmin=0.0, vmax=vmax if vmax > 0 else 1.0)
     trace_layers = [ly for ly in graph.routes.layers.values() if ly.plane is None]
@@ -273,38 +254,9 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
                                   pad=0.4, borderpad=0.5, sep=3, frameon=True, size_vertical=0,
                                   fontproperties={"size": 8}))
 
-    # One colour bar per drawn layer, the same scale on each; the vias' own bar
-    # and scale (a via's share is often a hundredth of a trace's).
     drawn = [name for name in file_layers if any(s.layer == name for s in traces)]
-    bars: list[tuple[str, Any]] = [(name, cmaps[name]) for name in drawn]
-    if round_segments:
-        sm = ScalarMappable(norm=via_norm, cmap=via_cmap)
-        cb = fig.colorbar(sm, ax=ax, fraction=0.025, pad=0.015, aspect=30)
-        cb.ax.set_title("vias", fontsize=8, rotation=90)
-        cb.set_label(value_label.replace("(nH)", "of vias (nH)"), fontsize=8)
-        cb.ax.tick_params(labelsize=7)
-    # Each new colour bar goes between the axes and the bars before it: add them
-    # from the right, so they read in stack order, with the scale on the rightmost.
-    for k, (name, cmap) in enumerate(reversed(bars)):
-        sm = ScalarMappable(norm=norm, cmap=cmap)
-        cb = fig.colorbar(sm, ax=ax, fraction=0.025, pad=0.015, aspect=30)
-        cb.ax.set_title(name, fontsize=8, rotation=90)
-        if k == 0:
-            cb.set_label(value_label, fontsize=8)
-            cb.ax.tick_params(labelsize=7)
-        else:
-            cb.ax.set_yticks([])
-    handles: list[Any] = [Patch(facecolor=hues[name], edgecolor=cmaps[name](1.0), label=f"layer {name}")
-               for name in drawn]
-    if round_segments:
-        handles.append(Patch(facecolor="0.6", edgecolor="black", label="vias"))
-    if lead_ends:
-        from matplotlib.lines import Line2D
-
-        handles.append(Line2D([], [], color=PROBE_COLOUR, linestyle="-.", label="probe leads"))
-    if handles:
-        ax.legend(handles=handles, loc="best", fontsize=7, framealpha=0.85,
-                  title="top to bottom", title_fontsize=7)
+    draw_keys(fig, ax, [(name, hues[name], cmaps[name]) for name in drawn], norm,
+              (via_cmap, via_norm) if round_segments else None, bool(lead_ends), value_label)
     return labels
 
 

@@ -55,3 +55,41 @@ def segment_label(segment_id: str) -> str:
     if not dot or not _NUMBER.match(net):
         return segment_id
     return f"gnd.{n}" if net == "0" else f"net{net}.{n}"
+
+
+def draw_keys(fig: Any, ax: Any, layers: Sequence[tuple[str, str, Any]], norm: Any,
+              vias: tuple[Any, Any] | None, probes: bool, value_label: str) -> None:
+    """The colour bars and the legend of the board view: one bar per drawn
+    layer ``(name, hue, colour map)`` on the common ``norm``; the vias' own bar
+    ``(colour map, norm)`` (a via's share is often a hundredth of a trace's);
+    a legend naming the layers top first, the vias and the probe leads."""
+    from matplotlib.cm import ScalarMappable
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+
+    if vias is not None:
+        cb = fig.colorbar(ScalarMappable(norm=vias[1], cmap=vias[0]), ax=ax, fraction=0.025,
+                          pad=0.015, aspect=30)
+        cb.ax.set_title("vias", fontsize=8, rotation=90)
+        cb.set_label(value_label.replace("(nH)", "of vias (nH)"), fontsize=8)
+        cb.ax.tick_params(labelsize=7)
+    # Each new colour bar goes between the axes and the bars before it: add them
+    # from the right, so they read in stack order, with the scale on the rightmost.
+    for k, (name, _hue, cmap) in enumerate(reversed(layers)):
+        cb = fig.colorbar(ScalarMappable(norm=norm, cmap=cmap), ax=ax, fraction=0.025, pad=0.015,
+                          aspect=30)
+        cb.ax.set_title(name, fontsize=8, rotation=90)
+        if k == 0:
+            cb.set_label(value_label, fontsize=8)
+            cb.ax.tick_params(labelsize=7)
+        else:
+            cb.ax.set_yticks([])
+    handles: list[Any] = [Patch(facecolor=hue, edgecolor=cmap(1.0), label=f"layer {name}")
+                          for name, hue, cmap in layers]
+    if vias is not None:
+        handles.append(Patch(facecolor="0.6", edgecolor="black", label="vias"))
+    if probes:
+        handles.append(Line2D([], [], color=PROBE_COLOUR, linestyle="-.", label="probe leads"))
+    if handles:
+        ax.legend(handles=handles, loc="best", fontsize=7, framealpha=0.85, title="top to bottom",
+                  title_fontsize=7)

@@ -305,13 +305,6 @@ def test_plot_command_errors(tmp_path, monkeypatch):
     assert not (tmp_path / "y.png").exists()
 
 
-def test_labels_of_nearby_pins_stack():
-    from parasite.plot import label_rows
-
-    pts = np.array([[0.0, 0.0], [0.0, 0.0], [0.3, 0.0], [10.0, 0.0], [0.6, 0.1]])
-    assert label_rows(pts, 0.5) == [0, 1, 2, 0, 3]
-
-
 def test_probe_leads_are_named_and_on_no_colour_scale():
     """The probe of the probe_resistor fixture: its leads drawn in the one
     probe colour (whatever their inductance), a label with the probe's name,
