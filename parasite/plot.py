@@ -288,7 +288,9 @@ def _draw_couplings(ax: Axes, graph: CopperGraph, L: np.ndarray, fig: Figure) ->
         ax.set_yticks(np.arange(n), labels, fontsize=7)
     else:
         centres = (starts + ends - 1) / 2.0
-        names = [graph.nets[int(net[s])] for s in starts]
+        from parasite.plot_style import net_label
+
+        names = [net_label(graph.nets[int(net[s])]) for s in starts]
         ax.set_xticks(centres, names, rotation=90, fontsize=7)
         ax.set_yticks(centres, names, fontsize=7)
     ax.set_title("coupling coefficient k, segments by net", fontsize=9)

@@ -54,7 +54,15 @@ def segment_label(segment_id: str) -> str:
     net, dot, n = segment_id.rpartition(".")
     if not dot or not _NUMBER.match(net):
         return segment_id
-    return f"gnd.{n}" if net == "0" else f"net{net}.{n}"
+    return f"{net_label(net)}.{n}"
+
+
+def net_label(net: str) -> str:
+    """A net's name for the picture: ``gnd`` for net 0, ``net12`` for a net
+    named by a number, other names as they are."""
+    if not _NUMBER.match(net):
+        return net
+    return "gnd" if net == "0" else f"net{net}"
 
 
 def draw_keys(fig: Any, ax: Any, layers: Sequence[tuple[str, str, Any]], norm: Any,

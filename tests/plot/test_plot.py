@@ -215,6 +215,9 @@ def test_segment_names_of_numbered_nets_do_not_read_as_numbers():
     assert segment_label("12.3") == "net12.3"
     assert segment_label("sw.2") == "sw.2"
     assert segment_label("probe:p1:tip.1") == "probe:p1:tip.1"
+    from parasite.plot_style import net_label
+
+    assert [net_label(n) for n in ("0", "12", "sw")] == ["gnd", "net12", "sw"]
 
 
 def test_couplings_panel_orders_segments_by_net():
