@@ -14,9 +14,10 @@ class SpiceNumber(click.ParamType):
 
     name = "number"
 
-    def __init__(self, minimum: float | None = None, exclusive: bool = True) -> None:
+    def __init__(self, minimum: float | None = None, exclusive: bool = True, unit: str = "") -> None:
         self.minimum = minimum
         self.exclusive = exclusive
+        self.unit = unit  # for the unit-trap warning (geometry.traps.milli_prefix)
 
     def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> float:
         try:
@@ -26,13 +27,20 @@ class SpiceNumber(click.ParamType):
         if self.minimum is not None and (x <= self.minimum if self.exclusive else x < self.minimum):
             rel = ">" if self.exclusive else ">="
             self.fail(f"{value!r} must be {rel} {self.minimum:g}", param, ctx)
+        if isinstance(value, str):
+            from geometry.traps import milli_prefix
+
+            trap = milli_prefix(value, self.unit)
+            if trap is not None:  # a warning only: the value keeps its SPICE meaning
+                name = param.opts[0] if param is not None and param.opts else "option"
+                click.echo(f"warning: {name}: {trap}", err=True)
         return x
 
 
 netlist_arg = click.argument("netlist", type=click.Path(dir_okay=False, allow_dash=True))
 routes_arg = click.argument("routes", type=click.Path(dir_okay=False))
 frequency_opt = click.option(
-    "--frequency", type=SpiceNumber(minimum=0.0), default=None,
+    "--frequency", type=SpiceNumber(minimum=0.0, unit="Hz"), default=None,
     help="Resistance at this frequency in Hz (skin effect estimate); default DC. Accepts 100meg.",
 )
 min_coupling_opt = click.option(

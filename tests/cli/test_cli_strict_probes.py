@@ -94,3 +94,20 @@ def test_probes_unknown_name_is_a_usage_error(tmp_path: Path) -> None:
     assert res.exit_code == 2
     assert "'p9'" in res.output and "'p1'" in res.output
     assert not out.exists()
+
+
+def test_frequency_option_with_a_milli_prefix_warns(tmp_path: Path) -> None:
+    """``--frequency 300MHz`` is 0.3 Hz the SPICE way (ngspice manual 2.3): the
+    option keeps that value (the report's summary says 0.3) and a warning on
+    standard error says what it was read as; ``300meg`` does not warn."""
+    import json
+
+    runner = CliRunner()
+    routes = str(ROUTES / "loops.routes.toml")
+    res = runner.invoke(main, ["report", str(LOOPS_CIR), routes, "--format", "json", "-q",
+                               "--frequency", "300MHz"])
+    assert res.exit_code == 0, res.output
+    assert "warning: --frequency: '300MHz' is read as 0.3 Hz" in res.stderr
+    assert json.loads(res.stdout)["summary"]["frequency"] == 0.3
+    res = runner.invoke(main, ["report", str(LOOPS_CIR), routes, "-q", "--frequency", "300meg"])
+    assert res.exit_code == 0 and "warning" not in res.stderr
