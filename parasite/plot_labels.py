@@ -16,6 +16,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 ROW = 11.0  # points between rows of labels
 _NEAR = [(4.0, 3.0), (4.0, -13.0), (-4.0, 3.0), (-4.0, -13.0)]
 
@@ -50,7 +52,9 @@ def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
     renderer = canvas.get_renderer()
     frame = ax.get_window_extent(renderer)
     legend = ax.get_legend()
-    placed: list[Any] = [] if legend is None else [legend.get_window_extent(renderer)]
+    placed = _Boxes()  # boxes (display units) of what labels must not cover
+    if legend is not None:
+        placed.add(legend.get_window_extent(renderer))
     out = []
     for lab in labels:
         ann = ax.annotate(
@@ -66,7 +70,7 @@ def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
             box = ann.get_window_extent(renderer)
             inside = (box.x0 >= frame.x0 and box.x1 <= frame.x1 and box.y0 >= frame.y0
                       and box.y1 <= frame.y1)
-            if inside and not any(box.overlaps(other) for other in placed):
+            if inside and not placed.hit(box):
                 chosen = (box, leader)
                 break
         if chosen is None:  # no free place: back beside the point
@@ -80,9 +84,26 @@ def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
             ann.arrowprops = {"arrowstyle": "-", "linewidth": 0.5, "color": "0.35",
                               "shrinkA": 0, "shrinkB": 2}
             ann.arrow_patch = FancyArrowPatch((0, 0), (1, 1), **ann.arrowprops)
-        placed.append(box)
+        placed.add(box)
         out.append(ann)
     return out
+
+
+class _Boxes:
+    """Boxes placed so far, tested for overlap all at once (numpy)."""
+
+    def __init__(self) -> None:
+        self.rows: list[tuple[float, float, float, float]] = []
+        self.array = np.zeros((0, 4))
+
+    def add(self, box: Any) -> None:
+        self.rows.append((box.x0, box.y0, box.x1, box.y1))
+        self.array = np.array(self.rows)
+
+    def hit(self, box: Any) -> bool:
+        a = self.array
+        return bool(np.any((a[:, 0] < box.x1) & (box.x0 < a[:, 2]) & (a[:, 1] < box.y1)
+                           & (box.y0 < a[:, 3])))
 
 
 def boxes_overlap(fig: Any, gids: Sequence[str]) -> list[tuple[str, str]]:
