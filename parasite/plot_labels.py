@@ -43,7 +43,8 @@ def _places(max_rows: int = 12) -> list[tuple[float, float, bool]]:
 
 def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
     """Annotate ``ax`` with ``labels``, none overlapping another (as far as the
-    candidate places allow); returns the annotations in the order given."""
+    candidate places allow: fewer on a crowded board); returns the
+    annotations in the order given."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
     canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
@@ -52,6 +53,11 @@ def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
     renderer = canvas.get_renderer()
     frame = ax.get_window_extent(renderer)
     legend = ax.get_legend()
+    if legend is not None:  # where "best" put it, kept: the labels would move it
+        x0, y0 = ax.transAxes.inverted().transform(legend.get_window_extent(renderer).p0)
+        legend._loc = (float(x0), float(y0))  # set_loc from matplotlib 3.8 on
+    # each place tried costs a text layout: a crowded board tries fewer rows
+    places = _places(12 if len(labels) <= 100 else 2 if len(labels) <= 400 else 0)
     placed = _Boxes()  # boxes (display units) of what labels must not cover
     if legend is not None:
         placed.add(legend.get_window_extent(renderer))
@@ -60,11 +66,13 @@ def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
         ann = ax.annotate(
             lab.text, lab.at, xytext=_NEAR[0], textcoords="offset points", fontsize=lab.size,
             color=lab.colour, zorder=31.0, gid=lab.gid, va="bottom", ha="left",
+            arrowprops={"arrowstyle": "-", "linewidth": 0.5, "color": "0.35", "shrinkA": 0,
+                        "shrinkB": 2},
             bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "alpha": 0.85,
                   "linewidth": 0},
         )
         chosen = None
-        for dx, dy, leader in _places():
+        for dx, dy, leader in places:
             ann.set_ha("left" if dx > 0 else "right")
             ann.xyann = (dx, dy)
             box = ann.get_window_extent(renderer)
@@ -78,12 +86,8 @@ def place_labels(fig: Any, ax: Any, labels: Sequence[Label]) -> list[Any]:
             ann.xyann = _NEAR[0]
             chosen = (ann.get_window_extent(renderer), False)
         box, leader = chosen
-        if leader:
-            from matplotlib.patches import FancyArrowPatch
-
-            ann.arrowprops = {"arrowstyle": "-", "linewidth": 0.5, "color": "0.35",
-                              "shrinkA": 0, "shrinkB": 2}
-            ann.arrow_patch = FancyArrowPatch((0, 0), (1, 1), **ann.arrowprops)
+        if ann.arrow_patch is not None:  # the leader line, only for a label moved away
+            ann.arrow_patch.set_visible(leader)
         placed.add(box)
         out.append(ann)
     return out
