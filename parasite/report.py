@@ -158,11 +158,11 @@ def report_text(report: dict[str, Any], max_couplings: int = 20, top_terms: int 
         out += ["", "Largest terms of each loop (segment terms add up to the loop inductance; "
                 "pair terms are the mutual parts of the same value):", ""]
         out.append(format_loop_contributors(report["loops"], top=top_terms, where=where).rstrip("\n"))
-    out += loop_coupling_text(report)
     if report.get("probes"):
         from parasite.probes import format_probe_table
 
         out += ["", f"Probes: {len(report['probes'])}"] + format_probe_table(report["probes"])
+    out += loop_coupling_text(report)
     sm = report["summary"]
     out += ["", "Summary:"]
     out += [f"  {k}: {v}" for k, v in sm.items()]
