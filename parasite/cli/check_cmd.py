@@ -5,8 +5,9 @@ their largest segment and pair terms. For every loop over its limit, a line
 ``ROUTES:LINE: loop 'NAME' is over its limit: VALUE > LIMIT`` goes to
 standard error and the exit code is 3. A loop's ``mutual`` limits (the
 mutual inductance with another named loop, e.g. a gate loop's common-source
-inductance against its power loop) are checked the same way: ``|M| <= limit``. Exit 0 when every loop with a limit is
-within it, 1 when the input is in error.
+inductance against its power loop) are checked the same way: ``|M| <= limit``.
+Exit 0 when every loop and pair with a limit is within it, 1 when the input is
+in error.
 """
 
 from __future__ import annotations
