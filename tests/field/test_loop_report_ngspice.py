@@ -102,3 +102,21 @@ def test_check_mutual_limit_against_ngspice(tmp_path: Path, factor: float, code:
         assert f"{routes}:{line}: mutual of loops 'gate' and 'power' is over its limit" in r.stderr
     else:
         assert "OVER" not in r.stdout
+
+
+def test_simulated_pickup_is_the_ngspice_emf(tmp_path: Path) -> None:
+    """The ``ring`` flow's pick-up: the power loop's current read from the
+    simulated copper branch, differentiated, times M, peaks at the gate loop's
+    EMF that ngspice integrates (Faraday's law as above), within 1%, during the
+    ramp (1 us to 2 us); the slope read is the source's 10 A/us (PWL, exact)."""
+    from parasite.augment import augment_files
+    from parasite.field.sim_pickup import simulated_pickup
+
+    aug = augment_files(str(FIXTURES / "common_source.cir"),
+                        str(FIXTURES / "common_source.routes.toml"), min_coupling=0.0)
+    res = run_ngspice(aug.netlist_bytes, base_dir=tmp_path)
+    (pick,) = simulated_pickup(aug, res, "power")
+    assert pick["victim"] == "gate"
+    assert pick["peak_didt"] == pytest.approx(DIDT, rel=1e-6)
+    assert 1e-6 <= pick["time"] <= 2e-6
+    assert pick["peak_voltage"] == pytest.approx(_ngspice_emf(tmp_path), rel=0.01)
