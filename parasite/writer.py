@@ -52,10 +52,13 @@ def write_netlist(network: Network) -> WrittenNetlist:
     """The augmented netlist of ``network`` (the caller's netlist stays as read)."""
     graph = network.graph
     netlist = copy.deepcopy(network.extraction.inputs.netlist)
-    if not graph.segments:
-        return WrittenNetlist(netlist.to_bytes(), [])
     nodes = NameAllocator(network.reserved_names)
     elements = NameAllocator(netlist.element_names())
+    if not graph.segments:
+        parts = part_cards(graph.routes, netlist, nodes, elements)
+        if parts:
+            netlist.append_cards(parts + ["* ---- end of parasite parts ----"])
+        return WrittenNetlist(netlist.to_bytes(), [])
     names = network.node_names
     cards: list[str] = []
     inductor_names: list[str] = []

@@ -102,3 +102,30 @@ def test_part_twice_on_a_terminal_and_bad_value_are_errors(tmp_path: Path) -> No
     rt.write_text(rt.read_text() + '\n[[part]]\nterminal = "IP:1"\ninductance = -1e-9\n')
     r = CliRunner().invoke(main, ["report", str(net), str(rt), "-q"])
     assert r.exit_code == 1 and "part[0].inductance" in r.output
+
+
+@pytest.mark.ngspice
+def test_parts_alone_on_a_board_without_copper(tmp_path: Path) -> None:
+    """A routes file that places no copper, only [[part]] entries: the augmented
+    netlist still carries the parts, and ngspice's AC loop inductance is their
+    sum within 0.2% (series inductors add, common practice), as the report's
+    loop total says (its copper share is 0)."""
+    net = tmp_path / "bare.cir"
+    net.write_text(NETLIST)
+    rt = tmp_path / "bare.routes.toml"
+    rt.write_text('format = "parasite-routes/1"\nunits = "mm"\n'
+                  '[[loop]]\nname = "power"\npath = ["VB:1", "IP:1", "IP:2", "VB:2"]\n'
+                  + "".join(f'\n[[part]]\nterminal = "{t}"\ninductance = {v!r}\n'
+                            for t, v in PARTS.items()))
+    out = tmp_path / "bare.aug.cir"
+    r = CliRunner().invoke(main, ["augment", str(net), str(rt), "-o", str(out), "-q",
+                                  "--report", str(tmp_path / "bare.json")])
+    assert r.exit_code == 0, r.output
+    (loop,) = json.loads((tmp_path / "bare.json").read_text())["loops"]
+    assert loop["copper_inductance"] == 0.0
+    assert loop["inductance"] == pytest.approx(sum(PARTS.values()), rel=1e-12)
+    text = out.read_text()
+    plus, minus = re.search(r"^IP\s+(\S+)\s+(\S+)", text, re.MULTILINE).groups()
+    sim = run_ngspice(text, base_dir=tmp_path)
+    z = complex(np.asarray(sim.vector(f"v({minus})"))[0] - np.asarray(sim.vector(f"v({plus})"))[0])
+    assert z.imag / (2 * math.pi * F_AC) == pytest.approx(sum(PARTS.values()), rel=2e-3)
