@@ -118,7 +118,8 @@ class LoopResult:
         return out
 
 
-def path_parts(spec: Any, parts: Sequence[Any], netlist: TerminalLookup) -> tuple[tuple[str, float], ...]:
+def path_parts(spec: Any, parts: Sequence[Any], netlist: TerminalLookup,
+               file: str | None = None) -> tuple[tuple[str, float], ...]:
     """The ``[[part]]`` inductances (terminal as written, H) on the terminals of
     a loop's path, in path order; a part's terminal matches a stop of the same
     element on the same netlist terminal (name or position)."""
@@ -130,9 +131,23 @@ def path_parts(spec: Any, parts: Sequence[Any], netlist: TerminalLookup) -> tupl
         elem, _, term = text.strip().rpartition(":")
         elem, term = elem.strip().lower(), term.strip().lower()
         for p in by_element.get(elem, []):
-            if p.term == term or netlist.terminal_index(elem, p.term) == netlist.terminal_index(elem, term):
+            if p.term == term or _same_terminal(netlist, p, term, file):
                 out.append((p.terminal, p.inductance))
     return tuple(out)
+
+
+def _same_terminal(netlist: TerminalLookup, part: Any, term: str, file: str | None) -> bool:
+    """Whether ``part``'s terminal is ``term`` of the same element (name or
+    position); a terminal the element does not have is the routes file's error."""
+    from geometry.errors import RoutesError
+    from parasite.errors import NetlistError
+
+    try:
+        mine = netlist.terminal_index(part.element, part.term)
+    except NetlistError as exc:
+        raise RoutesError(f"part terminal {part.terminal!r}: {exc.message}", file=file,
+                          line=part.line, key=f"part[{part.index}].terminal") from None
+    return mine == netlist.terminal_index(part.element, term)
 
 
 def loop_results(
@@ -184,7 +199,8 @@ def loop_results(
         pairs = tuple(
             (ids[a], ids[b], t) for a, b, t in top_pair_terms(sol.currents, L_sub, top_pairs)
         )
-        parts = path_parts(spec, graph.routes.parts, netlist) if graph.routes.parts else ()
+        parts = (path_parts(spec, graph.routes.parts, netlist, graph.routes.path)
+                 if graph.routes.parts else ())
         total = sol.inductance + math.fsum(v for _, v in parts)
         within = None if spec.limit is None else bool(total <= spec.limit)
         results.append(LoopResult(

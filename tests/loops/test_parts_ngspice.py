@@ -129,3 +129,12 @@ def test_parts_alone_on_a_board_without_copper(tmp_path: Path) -> None:
     sim = run_ngspice(text, base_dir=tmp_path)
     z = complex(np.asarray(sim.vector(f"v({minus})"))[0] - np.asarray(sim.vector(f"v({plus})"))[0])
     assert z.imag / (2 * math.pi * F_AC) == pytest.approx(sum(PARTS.values()), rel=2e-3)
+
+
+def test_part_on_a_terminal_the_element_lacks(tmp_path: Path) -> None:
+    """IP has two terminals: a part on IP:9 of a loop through IP is a routes-file
+    error naming the part's key and line, exit 1."""
+    net, rt = _files(tmp_path, {"IP:9": 1e-9})
+    r = CliRunner().invoke(main, ["report", str(net), str(rt), "-q"])
+    assert r.exit_code == 1
+    assert f"{rt}:" in r.output and "part[0].terminal" in r.output
