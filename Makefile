@@ -5,7 +5,7 @@ PY     := $(VENV)/bin/python
 SUDO   := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 OUT    ?= build/demo
 
-.PHONY: demo test lint bench fuzz simulators ngspice venv clean
+.PHONY: demo demo-broadband test lint bench fuzz simulators ngspice venv clean
 
 venv: $(VENV)/.installed
 
@@ -41,6 +41,14 @@ demo: simulators venv
 	$(VENV)/bin/parasite ring fixtures/demo/buck.cir fixtures/demo/buck.routes.toml --node sw \
 	    --probe sw-spring --plot $(OUT)/buck.probe-sw-spring.png
 	@echo; echo "Pictures in $(OUT)/: buck.ring.png, buck.probe-sw-long-ground.png, buck.probe-sw-spring.png"
+	@echo; echo "== DC-only copper vs broadband ladders (skin and proximity effect): make demo-broadband"
+
+# The switch-node ring with DC copper and with broadband R-L ladders, side by side (about a minute).
+demo-broadband: simulators venv
+	@mkdir -p $(OUT)
+	$(VENV)/bin/parasite augment fixtures/demo/buck.cir fixtures/demo/buck.routes.toml --broadband \
+	    -o $(OUT)/buck.broadband.cir --report $(OUT)/buck.broadband.json
+	$(PY) benchmarks/compare_broadband.py $(OUT)
 
 test: simulators venv
 	$(PY) -m pytest

@@ -22,6 +22,7 @@ from parasite.network import Network, NetworkOptions, build_network
 from parasite.network.branches import Branch
 
 if TYPE_CHECKING:
+    from parasite.network.ladders import BroadbandOptions
     from parasite.pipeline import Extraction, Inputs
 
 AugmentOptions = NetworkOptions
@@ -59,29 +60,39 @@ def analyse(network: Network) -> dict[str, Any]:
     return build_report(network, loops, probe_entries)
 
 
-def augment(extraction: Extraction, options: AugmentOptions | None = None) -> AugmentResult:
-    """Build the augmented netlist and the JSON report of one extraction."""
+def augment(extraction: Extraction, options: AugmentOptions | None = None,
+            broadband: BroadbandOptions | None = None) -> AugmentResult:
+    """Build the augmented netlist and the JSON report of one extraction; with
+    ``broadband`` every branch is a fitted R-L ladder (:mod:`parasite.network.ladders`)."""
     from parasite.writer import initial_current_warnings, write_netlist
 
     network = build_network(extraction, options)
     report = analyse(network)
+    ladders = None
+    if broadband is not None and network.branches:
+        from parasite.network.ladders import branch_ladders
+
+        ladders = branch_ladders(network, broadband)
+        ids = [extraction.inputs.graph.segments[b.segments[0]].id for b in network.branches]
+        report["broadband"] = ladders.report(ids)
     if extraction.inputs.graph.segments:
         report["warnings"] += initial_current_warnings(extraction.inputs.netlist,
                                                        set(extraction.inputs.graph.anchors))
-    written = write_netlist(network)
+    written = write_netlist(network, ladders)
     return AugmentResult(written.netlist_bytes, report, network.node_names, network.branches,
                          written.inductor_names, network)
 
 
 def _run(inputs: Inputs, min_coupling: float | None, frequency: float | None,
-         keep_segments: bool, progress: Any) -> AugmentResult:
+         keep_segments: bool, progress: Any,
+         broadband: BroadbandOptions | None = None) -> AugmentResult:
     from parasite.errors import ParasiteError
     from parasite.pipeline import extract
 
     try:
         extraction = extract(inputs, frequency=frequency, progress=progress)
         return augment(extraction, AugmentOptions(min_coupling=min_coupling,
-                                                  keep_segments=keep_segments))
+                                                  keep_segments=keep_segments), broadband)
     except ParasiteError as exc:
         if exc.file is None:  # the copper is the routes file's: name it
             exc.file = inputs.routes_path
@@ -90,13 +101,13 @@ def _run(inputs: Inputs, min_coupling: float | None, frequency: float | None,
 
 def augment_files(netlist_path: str, routes_path: str, *, min_coupling: float | None = None,
                   frequency: float | None = None, keep_segments: bool = False,
-                  progress: Any = None) -> AugmentResult:
+                  progress: Any = None, broadband: BroadbandOptions | None = None) -> AugmentResult:
     """Read, extract and augment in one call (the library side of ``parasite augment``);
     ``netlist_path`` ``-`` reads standard input."""
     from parasite.pipeline import load_inputs
 
     return _run(load_inputs(netlist_path, routes_path), min_coupling, frequency, keep_segments,
-                progress)
+                progress, broadband)
 
 
 def augment_text(netlist: str | bytes, routes: str | bytes, *,
@@ -104,7 +115,7 @@ def augment_text(netlist: str | bytes, routes: str | bytes, *,
                  netlist_name: str = "<netlist>", routes_name: str = "<routes>",
                  include_dir: str | Path | None = None, min_coupling: float | None = None,
                  frequency: float | None = None, keep_segments: bool = False,
-                 progress: Any = None) -> AugmentResult:
+                 progress: Any = None, broadband: BroadbandOptions | None = None) -> AugmentResult:
     """The augmented netlist and report of a netlist and a routes file given as
     text, no files needed. ``netlist_name`` and ``routes_name`` appear in error
     messages and in the report; ``.include`` and ``.lib`` paths are looked for
@@ -115,7 +126,7 @@ def augment_text(netlist: str | bytes, routes: str | bytes, *,
     inputs = inputs_from_text(netlist, routes, routes_format=routes_format,
                               netlist_name=netlist_name, routes_name=routes_name,
                               include_dir=include_dir)
-    return _run(inputs, min_coupling, frequency, keep_segments, progress)
+    return _run(inputs, min_coupling, frequency, keep_segments, progress, broadband)
 
 
 def report_of(netlist: str | bytes, routes: str | bytes, *, fmt: str = "json",

@@ -40,6 +40,7 @@ from parasite.network.ports import probe_nodes
 
 if TYPE_CHECKING:
     from geometry.model import CopperGraph
+    from parasite.network.ladders import BranchLadders
 
 
 @dataclass(frozen=True)
@@ -48,8 +49,9 @@ class WrittenNetlist:
     inductor_names: list[str]  # per branch of the network
 
 
-def write_netlist(network: Network) -> WrittenNetlist:
-    """The augmented netlist of ``network`` (the caller's netlist stays as read)."""
+def write_netlist(network: Network, ladders: BranchLadders | None = None) -> WrittenNetlist:
+    """The augmented netlist of ``network`` (the caller's netlist stays as read); with
+    ``ladders`` every branch is its broadband R-L ladder (:mod:`parasite.network.ladders`)."""
     graph = network.graph
     netlist = copy.deepcopy(network.extraction.inputs.netlist)
     if not graph.segments:
@@ -60,14 +62,19 @@ def write_netlist(network: Network) -> WrittenNetlist:
     cards: list[str] = []
     inductor_names: list[str] = []
     if network.branches and network.selection is not None:
-        cards += _branch_cards(network, network.selection.self_inductance, nodes, elements,
-                               inductor_names)
-        cards += _coupling_cards(network.selection, inductor_names, elements)
+        if ladders is None:
+            cards += _branch_cards(network, network.selection.self_inductance, nodes, elements,
+                                   inductor_names)
+        else:
+            cards += _ladder_branch_cards(network, ladders, nodes, elements, inductor_names)
+        cards += _coupling_cards(network.selection, inductor_names, elements,
+                                 None if ladders is None else ladders.k)
     cards += instrument_cards(graph, names, elements, netlist.to_bytes())
     for pin in graph.pins:
         if pin.node != graph.anchors.get(pin.net):
             netlist.rename_terminal(pin.pin.element, pin.pin.term, names[pin.node])
-    netlist.append_cards(_header(network) + cards + ["* ---- end of parasite copper ----"])
+    header = _header(network) + ([] if ladders is None else ladders.header_lines())
+    netlist.append_cards(header + cards + ["* ---- end of parasite copper ----"])
     return WrittenNetlist(netlist.to_bytes(), inductor_names)
 
 
@@ -158,11 +165,42 @@ def _branch_cards(network: Network, Lself: np.ndarray, nodes: NameAllocator,
     return cards
 
 
+def _ladder_branch_cards(network: Network, ladders: BranchLadders, nodes: NameAllocator,
+                         elements: NameAllocator, inductor_names: list[str]) -> list[str]:
+    """Every branch as its ladder (:func:`parasite.extract.ladder.ladder_cards`); the
+    inductor listed per branch is the ladder's L0, which carries the couplings."""
+    from parasite.extract.ladder import ladder_cards
+
+    graph, names = network.graph, network.node_names
+    cards: list[str] = []
+    per_net: dict[str, int] = {}
+    for br, lad in zip(network.branches, ladders.ladders, strict=True):
+        first = graph.segments[br.segments[0]]
+        net = sanitize(first.net)
+        per_net[net] = per_net.get(net, 0) + 1
+        tag = f"p_{net}_{per_net[net]}"
+        stem = f"{'n' if not net[0].isalpha() else ''}{net}_{per_net[net]}"
+        count = iter(range(1, 1000))
+
+        def new_name(kind: str, tag: str = tag, stem: str = stem, count: Any = count) -> str:
+            if kind == "node":
+                return nodes.new(f"{stem}_b{next(count)}")
+            return elements.new(f"{kind}{tag}_{next(count)}")
+
+        cards.append(f"* {first.id}: {len(br.segments)} segment(s), ladder of {lad.r.size} stages "
+                     f"(fit error {100 * lad.max_error_r:.2f}% R, {100 * lad.max_error_l:.2f}% L)")
+        body, coupled = ladder_cards(lad, names[br.node_from], names[br.node_to], new_name)
+        cards += body
+        inductor_names.append(coupled)
+    return cards
+
+
 def _coupling_cards(selection: Any, inductor_names: list[str],
-                    elements: NameAllocator) -> list[str]:
+                    elements: NameAllocator, k_values: np.ndarray | None = None) -> list[str]:
     cards = []
+    ks = selection.k if k_values is None else k_values
     for n, (i, j, k) in enumerate(zip(selection.i.tolist(), selection.j.tolist(),
-                                      selection.k.tolist(), strict=True), start=1):
+                                      np.asarray(ks).tolist(), strict=True), start=1):
         kname = elements.new(f"Kp_{n}")
         cards.append(f"{kname} {inductor_names[i]} {inductor_names[j]} {format_k(k)}")
     return cards

@@ -6,9 +6,12 @@ import click
 
 from parasite.cli import reports_input_errors
 from parasite.cli.options import (
+    band_opt,
+    broadband_opt,
     frequency_opt,
     min_coupling_opt,
     netlist_arg,
+    parse_band,
     progress_callback,
     quiet_opt,
     routes_arg,
@@ -22,6 +25,8 @@ from parasite.cli.options import (
               help="The augmented netlist: a file, or - for standard output.")
 @min_coupling_opt
 @frequency_opt
+@broadband_opt
+@band_opt
 @click.option("--keep-segments", is_flag=True,
               help="One R-L pair per segment instead of one per series chain.")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
@@ -29,8 +34,8 @@ from parasite.cli.options import (
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
-            frequency: float | None, keep_segments: bool, report_path: str | None,
-            quiet: bool) -> None:
+            frequency: float | None, broadband: bool, band: str | None, keep_segments: bool,
+            report_path: str | None, quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
 
@@ -38,13 +43,19 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     measurement.
     """
     from parasite.augment import augment_files
+    from parasite.network.ladders import BroadbandOptions
     from parasite.outputs import check_outputs, input_files, write_outputs
     from parasite.report import report_json
 
+    fband = parse_band(band)
+    if (broadband or fband) and frequency is not None:
+        raise click.UsageError("--broadband starts from the DC resistance: give no --frequency with it")
+    wide = BroadbandOptions(band=fband) if fband else (BroadbandOptions() if broadband else None)
     outputs = [output] if report_path is None else [report_path, output]
     check_outputs(outputs, [netlist, routes])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
-                           keep_segments=keep_segments, progress=progress_callback(quiet))
+                           keep_segments=keep_segments, progress=progress_callback(quiet),
+                           broadband=wide)
     inputs = input_files(netlist, routes, result.network.extraction.inputs.netlist
                          if result.network is not None else None)
     check_outputs(outputs, inputs)  # now also the files the netlist includes

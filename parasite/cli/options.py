@@ -52,6 +52,32 @@ min_coupling_opt = click.option(
          "chosen per board, the largest threshold that keeps every [[loop]] within 1% of the full "
          "matrix (0.01 for a board without loops).",
 )
+broadband_opt = click.option(
+    "--broadband", is_flag=True,
+    help="Write every branch as an R-L ladder fitted to its R(f) and L(f) over --band "
+         "(skin and proximity effect) instead of one R and L.",
+)
+band_opt = click.option(
+    "--band", default=None, metavar="FMIN,FMAX",
+    help="The broadband ladders' band in Hz (implies --broadband); default 1k,1g.",
+)
+
+
+def parse_band(value: str | None) -> tuple[float, float] | None:
+    """``FMIN,FMAX`` (SPICE-style numbers, Hz) -> (fmin, fmax); click error when invalid."""
+    if value is None:
+        return None
+    parts = value.split(",")
+    try:
+        lo, hi = (parse_spice_number(p.strip()) for p in parts) if len(parts) == 2 else (0.0, 0.0)
+    except ValueError as exc:
+        raise click.BadParameter(str(exc), param_hint="--band") from exc
+    if not 0 < lo < hi:
+        raise click.BadParameter(f"{value!r}: give FMIN,FMAX with 0 < FMIN < FMAX (Hz)",
+                                 param_hint="--band")
+    return lo, hi
+
+
 quiet_opt = click.option("--quiet", "-q", is_flag=True, help="No progress on standard error.")
 
 

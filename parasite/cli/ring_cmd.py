@@ -55,6 +55,9 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
               help="Stop a simulation after this many seconds.")
 @min_coupling_opt
 @frequency_opt
+@click.option("--broadband", is_flag=True,
+              help="Copper as broadband R-L ladders (skin and proximity effect over 1 kHz-1 GHz), "
+                   "as in 'parasite augment --broadband'.")
 @quiet_opt
 @reports_input_errors
 def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: str | None,
@@ -62,7 +65,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
          plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
          loop_name: str | None, probe: str | None, edge_rule: str, all_edges: bool,
          timeout: float,
-         min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
+         min_coupling: float | None, frequency: float | None, broadband: bool, quiet: bool) -> None:
     """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
     measure each switching edge (ring frequency and damping ratio from a damped
     sinusoid fitted after the first lobe, peak overshoot, settling time into a
@@ -84,6 +87,8 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
             raise click.BadParameter(f"{edge_rule!r}: give 'order', 'last' or an edge number "
                                      "(1, 2, ...)", param_hint="--edge")
         rule = int(rule)
+    if broadband and frequency is not None:
+        raise click.UsageError("--broadband starts from the DC resistance: give no --frequency with it")
     inputs = [netlist, routes, measured]
     check_output_path(output, inputs)
     if plot_path is not None:
@@ -101,7 +106,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
             channel=channel, band=band,
             capacitance=capacitance, loop=loop_name, min_coupling=min_coupling,
             frequency=frequency, timeout=timeout, progress=progress, probe=probe,
-            edge_rule=rule,
+            edge_rule=rule, broadband=broadband,
         )
     finally:
         if progress is not None:

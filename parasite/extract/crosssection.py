@@ -232,23 +232,18 @@ class SectionImpedance:
 def _modes(conductors: tuple[Conductor, ...], meshing: Meshing) -> tuple[np.ndarray, np.ndarray, int]:
     """B = P^T R^-1/2 Q (n_c, n) and lam (n,) s of the section (module docstring)."""
     cells = mesh_section(conductors, meshing)
-    lmat = -MU0 / (2 * np.pi) * logmean_matrix(cells)
+    return _modes_of(cells, -MU0 / (2 * np.pi) * logmean_matrix(cells), len(conductors))
+
+
+def _modes_of(cells: Cells, lmat: np.ndarray, n_c: int) -> tuple[np.ndarray, np.ndarray, int]:
     rs = 1 / np.sqrt(cells.resistance)
     lam, q = np.linalg.eigh(rs[:, None] * lmat * rs[None, :])
-    p = np.zeros((cells.area.size, len(conductors)))
+    p = np.zeros((cells.area.size, n_c))
     p[np.arange(cells.area.size), cells.owner] = 1.0
     return (p * rs[:, None]).T @ q, lam, cells.area.size
 
 
-def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency: np.ndarray,
-                  meshing: Meshing | None = None) -> SectionImpedance:
-    """R(f), L(f) matrices per unit length of the conductors (module docstring). ``frequency``
-    in Hz (>= 0; 0 is DC), the cells sized from ``meshing.f_max``."""
-    conductors = tuple(conductors)
-    check_section(conductors, frequency)
-    meshing = meshing or Meshing(f_max=float(np.max(frequency)) if np.max(frequency) > 0 else 1e9)
-    b, lam, ncells = _modes(conductors, meshing)
-    f = np.asarray(frequency, dtype=float)
+def _impedance(b: np.ndarray, lam: np.ndarray, ncells: int, f: np.ndarray) -> SectionImpedance:
     w = 2 * np.pi * f
     y = np.einsum("ci,fi,di->fcd", b, 1 / (1 + 1j * w[:, None] * lam[None, :]), b)
     z = np.linalg.inv(y)
@@ -261,6 +256,40 @@ def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency
         z0 = np.linalg.inv(y0)
         ind[w == 0] = z0 @ y1 @ z0
     return SectionImpedance(f, res, ind, ncells, np.linalg.inv((b / lam[None, :]) @ b.T))
+
+
+def solve_over_plane(conductor: Rect, gap: float, frequency: np.ndarray,
+                     meshing: Meshing | None = None) -> SectionImpedance:
+    """R(f), L(f) per unit length (1 x 1 matrices) of a rectangle ``gap`` (m) above the
+    face of a perfectly conducting plane: its cells couple to the mirror images of the
+    cells, which carry the opposite current (method of images), so
+    L'_ij = -mu0/(2 pi) (G_ij - G_ij'), half the loop of the conductor and its image,
+    solved with half the cells of that pair. Referenced to nothing (a loop quantity)."""
+    check_section((conductor,), frequency)
+    if not (math.isfinite(gap) and gap > 0):
+        raise ExtractionError(f"the gap to the plane must be positive, got {gap!r} m", key="gap")
+    f = np.asarray(frequency, dtype=float)
+    meshing = meshing or Meshing(f_max=float(np.max(f)) if np.max(f) > 0 else 1e9)
+    cells = mesh_section((conductor,), meshing)
+    g = cells.geom
+    face = conductor.y - conductor.height / 2 - gap
+    i, j = np.triu_indices(g.shape[0])
+    img = rect_logmean(g[i, 0], g[i, 1], g[i, 2], g[i, 3], g[j, 0], 2 * face - g[j, 1], g[j, 2], g[j, 3])
+    gi = np.empty((g.shape[0], g.shape[0]))
+    gi[i, j] = img
+    gi[j, i] = img
+    lmat = -MU0 / (2 * np.pi) * (logmean_matrix(cells) - gi)
+    return _impedance(*_modes_of(cells, lmat, 1), f)
+
+
+def solve_section(conductors: tuple[Conductor, ...] | list[Conductor], frequency: np.ndarray,
+                  meshing: Meshing | None = None) -> SectionImpedance:
+    """R(f), L(f) matrices per unit length of the conductors (module docstring). ``frequency``
+    in Hz (>= 0; 0 is DC), the cells sized from ``meshing.f_max``."""
+    conductors = tuple(conductors)
+    check_section(conductors, frequency)
+    meshing = meshing or Meshing(f_max=float(np.max(frequency)) if np.max(frequency) > 0 else 1e9)
+    return _impedance(*_modes(conductors, meshing), np.asarray(frequency, dtype=float))
 
 
 def external_inductance(conductors: tuple[Conductor, ...] | list[Conductor],

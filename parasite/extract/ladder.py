@@ -103,8 +103,19 @@ def fit_ladder(frequency: np.ndarray, resistance: np.ndarray, inductance: np.nda
         rf, lf = _model(p, w, stages)
         return np.concatenate([rf / r - 1, lf / ind - 1])
 
-    sol = optimize.least_squares(residual, p0, method="lm", x_scale=1.0)
-    p = sol.x if sol.cost < 0.5 * np.sum(residual(p0) ** 2) else p0
+    def jacobian(p: np.ndarray) -> np.ndarray:
+        p = np.clip(p, -100.0, 100.0)
+        rk, tk = np.exp(p[2:2 + stages]), np.exp(p[2 + stages:])
+        x2 = (w[:, None] * tk) ** 2
+        d = 1 + x2
+        jr = np.hstack([np.full((w.size, 1), np.exp(p[0])), np.zeros((w.size, 1)),
+                        rk * x2 / d, rk * 2 * x2 / d**2]) / r[:, None]
+        jl = np.hstack([np.zeros((w.size, 1)), np.full((w.size, 1), np.exp(p[1])),
+                        rk * tk / d, rk * tk * (1 - x2) / d**2]) / ind[:, None]
+        return np.vstack([jr, jl])
+
+    sol = optimize.least_squares(residual, p0, jac=jacobian, method="lm", x_scale=1.0)
+    p = np.clip(sol.x if sol.cost < 0.5 * np.sum(residual(p0) ** 2) else p0, -100.0, 100.0)
     rf, lf = _model(p, w, stages)
     rk, tk = np.exp(p[2:2 + stages]), np.exp(p[2 + stages:])
     order = np.argsort(tk)
@@ -121,15 +132,18 @@ def ladder_cards(ladder: Ladder, node_a: str, node_b: str,
                  new_name: Callable[[str], str]) -> tuple[list[str], str]:
     """SPICE cards of ``ladder`` between ``node_a`` and ``node_b``. ``new_name(kind)`` returns
     a fresh unique name for kind "R", "L" (element names, starting with that letter) or
-    "node". Returns (cards, name of the coupling inductor L0). Order: a - R0 - L0 -
-    (R1 || L1) - ... - b; the dot of L0 is on the node_a side (current a -> b positive)."""
+    "node". Returns (cards, name of the coupling inductor L0). Order: a - L0 -
+    (R1 || L1) - ... - R0 - b (as a branch's single L and R are written: the inductor at
+    the ``from`` end, the series resistor at the ``to`` end; a device terminal on either
+    end then meets the same element kind as without the ladder); the dot of L0 is on the
+    node_a side (current a -> b positive)."""
     cards = []
     nodes = [node_a] + [new_name("node") for _ in range(len(ladder.r) + 1)] + [node_b]
-    cards.append(f"{new_name('R')} {nodes[0]} {nodes[1]} {_value(ladder.r0)}")
     coupling = new_name("L")
-    cards.append(f"{coupling} {nodes[1]} {nodes[2]} {_value(ladder.l0)}")
+    cards.append(f"{coupling} {nodes[0]} {nodes[1]} {_value(ladder.l0)}")
     for k, (rk, lk) in enumerate(zip(ladder.r, ladder.l, strict=True)):
-        a, b = nodes[2 + k], nodes[3 + k]
+        a, b = nodes[1 + k], nodes[2 + k]
         cards.append(f"{new_name('R')} {a} {b} {_value(rk)}")
         cards.append(f"{new_name('L')} {a} {b} {_value(lk)}")
+    cards.append(f"{new_name('R')} {nodes[-2]} {nodes[-1]} {_value(ladder.r0)}")
     return cards, coupling

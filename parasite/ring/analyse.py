@@ -153,6 +153,7 @@ def analyse_ring(
     progress: Callable[[str, float], None] | None = None,
     probe: str | None = None,
     edge_rule: str | int = "order",
+    broadband: bool = False,
 ) -> RingResult:
     """Simulate NETLIST as it is and with the copper of ROUTES (``routes_path``
     None: the original only), measure the ring at ``node``, and compare with a
@@ -238,8 +239,15 @@ def analyse_ring(
     if routes_path is not None:
         from parasite.augment import augment_files
 
+        wide = None
+        if broadband:
+            from parasite.network.ladders import BroadbandOptions
+
+            wide = BroadbandOptions()
         aug = augment_files(netlist_path, routes_path, min_coupling=min_coupling,
-                            frequency=frequency)
+                            frequency=frequency, broadband=wide)
+        report["copper_model"] = ("broadband R-L ladders" if broadband else
+                                  "DC resistance" if frequency is None else f"R at {frequency:g} Hz")
         aug_name = f"{netlist_path} (augmented with {routes_path})"
         aug_node, read_at = augmented_point(netlist, aug.netlist_bytes, node_key, terminal,
                                              base_dir)
@@ -360,6 +368,9 @@ def analyse_ring(
             entry = None
         if entry is not None:
             report["fit"].append(entry)
+    from parasite.ring.budget import damping_budget
+
+    report["damping_budget"] = damping_budget(report["fit"])
     return RingResult(report=report, ideal=ideal_wave, augmented=augmented_wave,
                       measured=measured_wave, metrics=metrics, pairs=pairs)
 

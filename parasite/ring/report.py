@@ -149,5 +149,8 @@ def format_ring_text(report: dict[str, Any], *, all_edges: bool = False) -> str:
             out.append(f"(loop {loop['name']!r} from the routes file: "
                        f"L = {loop['inductance'] * 1e9:.2f} nH, "
                        f"R = {loop['resistance'] * 1e3:.2f} mOhm)")
+    from parasite.ring.budget import budget_lines
+
+    out += budget_lines(report.get("damping_budget", []), report.get("copper_model", "DC resistance"))
     out += [""] + [f"Caution: {c}" for c in report["cautions"]]
     return "\n".join(out) + "\n"

@@ -207,7 +207,6 @@ def test_copper_beside_an_unknown_form_and_a_pin_on_it(tmp_path: Path) -> None:
     """With copper on other nets, a U card of unknown form is written back
     untouched; a pin on one of its terminals is an error that names it."""
     from parasite.augment import augment_files
-
     from tests.boards import ONE_LAYER as HEAD
     from tests.boards import pin as _pin
     from tests.boards import trace as _trace
