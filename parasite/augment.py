@@ -61,9 +61,12 @@ def analyse(network: Network) -> dict[str, Any]:
 
 
 def augment(extraction: Extraction, options: AugmentOptions | None = None,
-            broadband: BroadbandOptions | None = None) -> AugmentResult:
+            broadband: BroadbandOptions | None = None, model: str = "auto") -> AugmentResult:
     """Build the augmented netlist and the JSON report of one extraction; with
-    ``broadband`` every branch is a fitted R-L ladder (:mod:`parasite.network.ladders`)."""
+    ``broadband`` every branch is a fitted R-L ladder (:mod:`parasite.network.ladders`);
+    ``model`` ``auto``, ``full`` or ``reduced`` (:mod:`parasite.network.reduce_choice`;
+    the ladders are written per branch, so ``broadband`` goes with the full model)."""
+    from parasite.network.reduce_choice import choose_model, reduction_report
     from parasite.writer import initial_current_warnings, write_netlist
 
     network = build_network(extraction, options)
@@ -78,21 +81,27 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
     if extraction.inputs.graph.segments:
         report["warnings"] += initial_current_warnings(extraction.inputs.netlist,
                                                        set(extraction.inputs.graph.anchors))
-    written = write_netlist(network, ladders)
+    if ladders is not None:
+        chosen, reduction, why = "full", None, "broadband ladders are written per branch"
+    else:
+        chosen, reduction, why = choose_model(network, model)
+    report["model"] = reduction_report(chosen, reduction, why)
+    written = write_netlist(network, ladders, reduction if chosen == "reduced" else None)
     return AugmentResult(written.netlist_bytes, report, network.node_names, network.branches,
                          written.inductor_names, network)
 
 
 def _run(inputs: Inputs, min_coupling: float | None, frequency: float | None,
          keep_segments: bool, progress: Any,
-         broadband: BroadbandOptions | None = None) -> AugmentResult:
+         broadband: BroadbandOptions | None = None, model: str = "auto") -> AugmentResult:
     from parasite.errors import ParasiteError
     from parasite.pipeline import extract
 
     try:
         extraction = extract(inputs, frequency=frequency, progress=progress)
         return augment(extraction, AugmentOptions(min_coupling=min_coupling,
-                                                  keep_segments=keep_segments), broadband)
+                                                  keep_segments=keep_segments), broadband,
+                       model)
     except ParasiteError as exc:
         if exc.file is None:  # the copper is the routes file's: name it
             exc.file = inputs.routes_path
@@ -101,13 +110,14 @@ def _run(inputs: Inputs, min_coupling: float | None, frequency: float | None,
 
 def augment_files(netlist_path: str, routes_path: str, *, min_coupling: float | None = None,
                   frequency: float | None = None, keep_segments: bool = False,
-                  progress: Any = None, broadband: BroadbandOptions | None = None) -> AugmentResult:
+                  progress: Any = None, broadband: BroadbandOptions | None = None,
+                  model: str = "auto") -> AugmentResult:
     """Read, extract and augment in one call (the library side of ``parasite augment``);
     ``netlist_path`` ``-`` reads standard input."""
     from parasite.pipeline import load_inputs
 
     return _run(load_inputs(netlist_path, routes_path), min_coupling, frequency, keep_segments,
-                progress, broadband)
+                progress, broadband, model)
 
 
 def augment_text(netlist: str | bytes, routes: str | bytes, *,
@@ -115,7 +125,8 @@ def augment_text(netlist: str | bytes, routes: str | bytes, *,
                  netlist_name: str = "<netlist>", routes_name: str = "<routes>",
                  include_dir: str | Path | None = None, min_coupling: float | None = None,
                  frequency: float | None = None, keep_segments: bool = False,
-                 progress: Any = None, broadband: BroadbandOptions | None = None) -> AugmentResult:
+                 progress: Any = None, broadband: BroadbandOptions | None = None,
+                 model: str = "auto") -> AugmentResult:
     """The augmented netlist and report of a netlist and a routes file given as
     text, no files needed. ``netlist_name`` and ``routes_name`` appear in error
     messages and in the report; ``.include`` and ``.lib`` paths are looked for
@@ -126,7 +137,7 @@ def augment_text(netlist: str | bytes, routes: str | bytes, *,
     inputs = inputs_from_text(netlist, routes, routes_format=routes_format,
                               netlist_name=netlist_name, routes_name=routes_name,
                               include_dir=include_dir)
-    return _run(inputs, min_coupling, frequency, keep_segments, progress, broadband)
+    return _run(inputs, min_coupling, frequency, keep_segments, progress, broadband, model)
 
 
 def report_of(netlist: str | bytes, routes: str | bytes, *, fmt: str = "json",

@@ -49,9 +49,12 @@ class WrittenNetlist:
     inductor_names: list[str]  # per branch of the network
 
 
-def write_netlist(network: Network, ladders: BranchLadders | None = None) -> WrittenNetlist:
+def write_netlist(network: Network, ladders: BranchLadders | None = None,
+                  reduction: Any = None) -> WrittenNetlist:
     """The augmented netlist of ``network`` (the caller's netlist stays as read); with
-    ``ladders`` every branch is its broadband R-L ladder (:mod:`parasite.network.ladders`)."""
+    ``ladders`` every branch is its broadband R-L ladder (:mod:`parasite.network.ladders`);
+    with ``reduction`` (a :class:`parasite.network.reduce_choice.Reduction`) the copper is
+    written as its reduced model, a subcircuit at the ports."""
     graph = network.graph
     netlist = copy.deepcopy(network.extraction.inputs.netlist)
     if not graph.segments:
@@ -61,7 +64,9 @@ def write_netlist(network: Network, ladders: BranchLadders | None = None) -> Wri
     names = network.node_names
     cards: list[str] = []
     inductor_names: list[str] = []
-    if network.branches and network.selection is not None:
+    if network.branches and reduction is not None:
+        cards += _reduced_cards(network, reduction, elements)
+    elif network.branches and network.selection is not None:
         if ladders is None:
             cards += _branch_cards(network, network.selection.self_inductance, nodes, elements,
                                    inductor_names)
@@ -73,7 +78,10 @@ def write_netlist(network: Network, ladders: BranchLadders | None = None) -> Wri
     for pin in graph.pins:
         if pin.node != graph.anchors.get(pin.net):
             netlist.rename_terminal(pin.pin.element, pin.pin.term, names[pin.node])
-    header = _header(network) + ([] if ladders is None else ladders.header_lines())
+    if reduction is not None:
+        header = _reduced_header(network, reduction)
+    else:
+        header = _header(network) + ([] if ladders is None else ladders.header_lines())
     netlist.append_cards(header + cards + ["* ---- end of parasite copper ----"])
     return WrittenNetlist(netlist.to_bytes(), inductor_names)
 
@@ -139,6 +147,34 @@ def _header(network: Network) -> list[str]:
     if any(b.node_from == b.node_to for b in branches):
         lines.append("* note: closed rings of copper are written as a branch from a node to itself")
     return lines
+
+
+def _reduced_header(network: Network, reduction: Any) -> list[str]:
+    m, r = reduction.model, reduction.realisation
+    inputs = network.extraction.inputs
+    freq = network.extraction.frequency
+    return [
+        f"* ---- parasite: copper from {Path(inputs.routes_path).name}, reduced model ----",
+        f"* {len(network.branches)} branches seen from {m.n_ports} ports, reduced to "
+        f"{m.order} internal states of {m.full_order} (block Krylov congruence projection)",
+        f"* port impedance within {r.max_error:.2e} (complex relative error) of the full "
+        f"network from DC to {m.f_max:g} Hz; resistance "
+        + ("at DC" if freq is None else f"at {freq:g} Hz (skin effect estimate)"),
+        f"* smallest eigenvalue of the inductance matrix as written: {r.min_eig_L:.4e} H",
+        "* partial inductances from closed-form formulas: estimates, to be confirmed by measurement",
+    ]
+
+
+def _reduced_cards(network: Network, reduction: Any, elements: NameAllocator) -> list[str]:
+    from parasite.network.reduce_cards import subcircuit_cards
+
+    subckts = set(network.extraction.inputs.netlist.subckts)  # lower-case names
+    name, n = "parasite_copper", 1
+    while name in subckts:
+        n += 1
+        name = f"parasite_copper{n}"
+    return subcircuit_cards(reduction.model, reduction.realisation, name, network.node_names,
+                            elements.new("Xparasite_copper"))
 
 
 def _branch_cards(network: Network, Lself: np.ndarray, nodes: NameAllocator,

@@ -29,12 +29,17 @@ from parasite.cli.options import (
 @band_opt
 @click.option("--keep-segments", is_flag=True,
               help="One R-L pair per segment instead of one per series chain.")
+@click.option("--model", "model", type=click.Choice(["auto", "full", "reduced"]), default="auto",
+              show_default=True,
+              help="The copper as every branch (full), as a reduced model at the ports "
+                   "(reduced), or whichever is smaller when the reduced one is accurate (auto).")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
               help="Also write the JSON report of this run to this file.")
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
             frequency: float | None, broadband: bool, band: str | None, keep_segments: bool,
+            model: str,
             report_path: str | None, quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
@@ -50,12 +55,15 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     fband = parse_band(band)
     if (broadband or fband) and frequency is not None:
         raise click.UsageError("--broadband starts from the DC resistance: give no --frequency with it")
+    if (broadband or fband) and model == "reduced":
+        raise click.UsageError("--broadband writes a ladder per branch: give --model full or auto "
+                               "with it")
     wide = BroadbandOptions(band=fband) if fband else (BroadbandOptions() if broadband else None)
     outputs = [output] if report_path is None else [report_path, output]
     check_outputs(outputs, [netlist, routes])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                            keep_segments=keep_segments, progress=progress_callback(quiet),
-                           broadband=wide)
+                           broadband=wide, model=model)
     inputs = input_files(netlist, routes, result.network.extraction.inputs.netlist
                          if result.network is not None else None)
     check_outputs(outputs, inputs)  # now also the files the netlist includes

@@ -51,8 +51,8 @@ def test_auto_threshold_keeps_loops_within_one_percent(tmp_path: Path) -> None:
     (tmp_path / "b.routes.toml").write_text(routes)
     (tmp_path / "b.cir").write_text(netlist + ".end\n")
     args = (str(tmp_path / "b.cir"), str(tmp_path / "b.routes.toml"))
-    dense = augment_files(*args, min_coupling=0.0, frequency=F_AC)
-    auto = augment_files(*args, frequency=F_AC)
+    dense = augment_files(*args, min_coupling=0.0, frequency=F_AC, model="full")
+    auto = augment_files(*args, frequency=F_AC, model="full")
     assert 0.0 < auto.report["summary"]["min_coupling"]  # it does prune
     assert auto.report["summary"]["couplings_written"] < dense.report["summary"]["couplings_written"]
     l_dense = _loop_inductances(dense.netlist_bytes.decode(), netlist, tmp_path)

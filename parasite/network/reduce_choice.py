@@ -1,0 +1,138 @@
+"""Full or reduced copper model for the netlist, chosen per board.
+
+The ports of the copper are every node that the designer's circuit or a probe
+touches: the placed pins, each net's anchor (the netlist's own node) and each
+probe lead's far end (the instrument's terminals). :func:`reduce_for_netlist`
+builds the reduced model (:mod:`parasite.network.reduce`) and its realisation
+(:mod:`parasite.network.reduce_cards`) from a :class:`parasite.network.Network`;
+:func:`choose_model` decides ``auto``: the reduced model when it is accurate
+(the written values within the tolerance of the full network up to ``f_max``),
+passive as written, and at most half the size (inductors, coupling
+statements and resistors, which is what ngspice's factorisation time
+follows; the reduced model's couplings form one dense group, so a small
+saving is not worth it; see ``benchmarks/bench_reduce.py``). Loops, probes and reports keep using the full
+network; only the netlist gets the reduced model.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from parasite.errors import ExtractionError
+from parasite.network.ports import probe_nodes
+from parasite.network.reduce import (
+    DEFAULT_FMAX,
+    DEFAULT_TOLERANCE,
+    ReducedModel,
+    full_port_impedance,
+    mesh_form,
+    reduce_network,
+)
+from parasite.network.reduce_cards import Realisation, realise
+
+if TYPE_CHECKING:
+    from parasite.network import Network
+
+MODELS = ("auto", "full", "reduced")
+AUTO_RATIO = 0.5  # auto writes the reduced model when it has at most this fraction of the elements
+
+
+@dataclass
+class Reduction:
+    model: ReducedModel
+    realisation: Realisation
+    full_size: int  # inductors + coupling statements of the full model as written
+    reduced_size: int  # inductors + coupling statements + resistors of the reduced model
+
+    @property
+    def passive(self) -> bool:
+        """Positive definite R and L of the model, and as written."""
+        r = self.realisation
+        return self.model.passive and r.min_eig_L > 0 and not r.min_eig_G < 0
+
+    @property
+    def acceptable(self) -> bool:
+        return self.passive and self.realisation.max_error <= 2 * self.model.tolerance
+
+
+def port_nodes(network: Network) -> list[int]:
+    """Graph node ids that the circuit or a probe touches (pins, anchors, lead ends)."""
+    graph = network.graph
+    out = [p.node for p in graph.pins] + list(graph.anchors.values())
+    for pn in probe_nodes(graph):
+        out += [pn.tip_end, pn.ground_end]
+    return list(dict.fromkeys(out))
+
+
+def reduce_for_netlist(network: Network, *, f_max: float = DEFAULT_FMAX,
+                       tolerance: float = DEFAULT_TOLERANCE) -> Reduction:
+    """The reduced model of ``network`` seen from :func:`port_nodes`, and its realisation."""
+    form = mesh_form(network.node_from, network.node_to, len(network.graph.nodes),
+                     port_nodes(network), network.L, network.R)
+    model = reduce_network(form, f_max=f_max, tolerance=tolerance)
+    real = realise(model, full_port_impedance(form, model.freqs))
+    n_res = len(real.resistors) + len(real.internal_R)
+    n_k = int((real.k != 0).sum()) // 2
+    sel = network.selection
+    full = len(network.branches) + (int(sel.kept) if sel is not None else 0)
+    return Reduction(model, real, full, len(real.inductances) + n_k + n_res)
+
+
+def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAULT_FMAX,
+                 tolerance: float = DEFAULT_TOLERANCE) -> tuple[str, Reduction | None, str]:
+    """``(chosen, reduction, why)``: ``chosen`` ``full`` or ``reduced``."""
+    if model not in MODELS:
+        raise ValueError(f"model must be one of {', '.join(MODELS)}, not {model!r}")
+    if model == "full" or not network.branches:
+        return "full", None, "given (--model full)" if model == "full" else "no copper"
+    if model == "auto" and network.options.min_coupling is not None:
+        return "full", None, "--min-coupling given: it sets the full model's couplings"
+    try:
+        red = reduce_for_netlist(network, f_max=f_max, tolerance=tolerance)
+    except np.linalg.LinAlgError as exc:  # e.g. a branch without resistance: R not definite
+        if model == "auto":
+            return "full", None, f"no reduced model: {exc}"
+        raise ExtractionError(f"the copper cannot be reduced ({exc}); write it with --model full",
+                              file=network.extraction.inputs.routes_path) from exc
+    if model == "reduced":
+        return "reduced", red, "given (--model reduced)"
+    if not red.acceptable:
+        return "full", red, "the reduced model missed the tolerance or the passivity check"
+    if red.reduced_size <= AUTO_RATIO * red.full_size:
+        return "reduced", red, (f"smaller: {red.reduced_size} elements against "
+                                f"{red.full_size} (inductors, couplings, resistors)")
+    return "full", red, (f"the reduced model is not less than half the size: {red.reduced_size} "
+                         f"elements against {red.full_size}")
+
+
+def reduction_report(chosen: str, red: Reduction | None, why: str) -> dict[str, Any]:
+    """The report's ``model`` section (SI; errors as complex relative errors)."""
+    out: dict[str, Any] = {"written": chosen, "rule": why}
+    if red is None:
+        return out
+    m, r = red.model, red.realisation
+
+    def fin(x: float) -> float | None:
+        return float(x) if math.isfinite(x) else None
+
+    out.update({
+        "ports": m.n_ports,
+        "order": m.order,
+        "full_order": m.full_order,
+        "f_max": m.f_max,
+        "tolerance": m.tolerance,
+        "error_over_frequency": [[float(f), float(e)] for f, e in zip(m.freqs, m.errors,
+                                                                       strict=True)],
+        "max_error": fin(m.max_error),
+        "max_error_as_written": fin(r.max_error),
+        "passivity": {"min_eigenvalue_R": fin(m.min_eig_R), "min_eigenvalue_L": fin(m.min_eig_L),
+                      "min_eigenvalue_L_as_written": fin(r.min_eig_L),
+                      "min_eigenvalue_G_as_written": fin(r.min_eig_G),
+                      "passive": bool(red.passive)},
+        "size": {"full": red.full_size, "reduced": red.reduced_size},
+    })
+    return out
