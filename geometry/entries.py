@@ -13,6 +13,8 @@ from typing import Any
 from geometry.locate import KeyPath
 from geometry.model import (
     LoopSpec,
+    MutualLimit,
+    PartInductance,
     Pin,
     Trace,
     Via,
@@ -28,7 +30,9 @@ from geometry.routes_context import Context
 _TRACE_KEYS = ("net", "layer", "width", "points", "name")
 _VIA_KEYS = ("net", "at", "from", "to", "diameter", "wall")
 _PIN_KEYS = ("terminal", "at", "layer")
-_LOOP_KEYS = ("name", "path", "limit", "frequency")
+_LOOP_KEYS = ("name", "path", "limit", "frequency", "mutual", "didt")
+_MUTUAL_KEYS = ("loop", "limit")
+_PART_KEYS = ("terminal", "inductance")
 
 
 def _check_piece_lengths(ctx: Any, path: tuple[Any, ...], points: Sequence[Sequence[float]],
@@ -123,5 +127,28 @@ def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:
     limit = _spice_value(ctx, t["limit"], path + ("limit",), "H") if "limit" in t else None
     freq = (_spice_value(ctx, t["frequency"], path + ("frequency",), "Hz")
             if "frequency" in t else None)
+    mutual = []
+    raw_m = ctx.array(t["mutual"], path + ("mutual",), "tables {loop = NAME, limit = H}") \
+        if "mutual" in t else []
+    for k, item in enumerate(raw_m):
+        mp = path + ("mutual", k)
+        m = ctx.table(item, mp, _MUTUAL_KEYS, _MUTUAL_KEYS)
+        other = ctx.string(m["loop"], mp + ("loop",), "the name of another [[loop]]")
+        if other == name:
+            ctx.fail(mp + ("loop",), f"loop {name!r} names itself; a mutual limit names another loop")
+        mutual.append(MutualLimit(loop=other, limit=_spice_value(ctx, m["limit"], mp + ("limit",), "H"),
+                                  index=k))
+    didt = _spice_value(ctx, t["didt"], path + ("didt",), "A/s") if "didt" in t else None
     return LoopSpec(name=name, path=terms, limit=limit, frequency=freq, index=index,
-                    line=ctx.lines.line_of(path))
+                    line=ctx.lines.line_of(path), mutual=tuple(mutual), didt=didt)
+
+
+def parse_part_entry(ctx: Context, raw: Any, index: int) -> PartInductance:
+    """``[[part]] terminal = "C5:1", inductance = "0.4n"``: a part's own series
+    inductance (H) at one terminal."""
+    path: KeyPath = ("part", index)
+    t = ctx.table(raw, path, _PART_KEYS, _PART_KEYS)
+    text, element, term = ctx.terminal(t["terminal"], path + ("terminal",))
+    value = _spice_value(ctx, t["inductance"], path + ("inductance",), "H")
+    return PartInductance(terminal=text, element=element, term=term, inductance=value,
+                          index=index, line=ctx.lines.line_of(path))

@@ -52,11 +52,17 @@ def analyse(network: Network) -> dict[str, Any]:
 
     extraction = network.extraction
     graph, netlist = extraction.inputs.graph, extraction.inputs.netlist
-    loops = ([loop_result_dict(r) for r in loop_results(graph, netlist, extraction.L, extraction.R)]
-             if graph.routes.loops else [])
+    results = loop_results(graph, netlist, extraction.L, extraction.R) if graph.routes.loops else []
+    loops = [loop_result_dict(r) for r in results]
     probe_entries = (probe_report(extraction, node_labels(network), loops)
                      if graph.routes.probes else [])
-    return build_report(network, loops, probe_entries)
+    report = build_report(network, loops, probe_entries)
+    if results:
+        from parasite.field.loop_report import loop_sections
+        from parasite.report import add_loop_sections
+
+        add_loop_sections(report, loop_sections(graph, results, extraction.L))
+    return report
 
 
 def augment(extraction: Extraction, options: AugmentOptions | None = None) -> AugmentResult:

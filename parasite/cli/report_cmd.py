@@ -20,7 +20,9 @@ from parasite.cli.options import (
 @routes_arg
 @click.option("--format", "fmt", type=click.Choice(["text", "json", "csv"]), default="text",
               show_default=True)
-@click.option("--table", type=click.Choice(["segments", "couplings", "loops"]), default="segments",
+@click.option("--table", type=click.Choice(["segments", "couplings", "loops", "loop_pairs",
+                                           "mutual_limits", "pickup", "dipoles"]),
+              default="segments",
               show_default=True, help="With --format csv: which table.")
 @click.option("-o", "--output", default="-", show_default=True, help="A file, or - for standard output.")
 @min_coupling_opt
