@@ -19,6 +19,7 @@ from geometry.model import (
     Trace,
     Via,
 )
+from geometry.traps import loop_limit, milli_prefix
 from geometry.values import parse_spice_number
 
 if sys.version_info >= (3, 11):
@@ -109,6 +110,9 @@ def _spice_value(ctx: Context, value: Any, path: KeyPath, unit: str) -> float:
         x = parse_spice_number(value)
         if x is None:
             ctx.fail(path, f"must be {what}; got {value!r}")
+        trap = milli_prefix(value, unit)
+        if trap is not None:
+            ctx.warn(path, trap)
     else:
         x = ctx.number(value, path, what)
     if x <= 0:
@@ -125,6 +129,8 @@ def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:
         ctx.fail(path + ("path",), f"must name at least two terminals; got {len(stops)}")
     terms = tuple(ctx.terminal(s, path + ("path", k))[0] for k, s in enumerate(stops))
     limit = _spice_value(ctx, t["limit"], path + ("limit",), "H") if "limit" in t else None
+    if limit is not None and (trap := loop_limit(limit)) is not None:
+        ctx.warn(path + ("limit",), trap)
     freq = (_spice_value(ctx, t["frequency"], path + ("frequency",), "Hz")
             if "frequency" in t else None)
     mutual = []

@@ -221,6 +221,7 @@ class Routes:
     probes: tuple[Probe, ...] = ()
     pours: tuple[Any, ...] = ()  # geometry.pour.Pour, in file order
     parts: tuple[PartInductance, ...] = ()
+    warnings: tuple[str, ...] = ()  # unit traps noticed while reading (geometry.traps)
 
 
 @dataclass(frozen=True)

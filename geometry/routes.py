@@ -241,10 +241,11 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
     copper_nets = {t.net for t in traces} | {v.net for v in vias} | {p.net for p in pours}
     copper_nets |= {la.plane for la in ctx.layers.values() if la.plane is not None}
     nets = _parse_nets(ctx, data["nets"], copper_nets) if "nets" in data else {}
+    _warn_board_size(ctx, traces, vias, pins, pours)
     return Routes(path=ctx.file, units=ctx.units, snap=ctx.snap, copper=copper,
                   layers=ctx.layers, traces=tuple(traces), vias=tuple(vias), pins=tuple(pins),
                   loops=tuple(loops), nets=nets, probes=tuple(parsed["probe"]),
-                  pours=pours, parts=tuple(parsed["part"]))
+                  pours=pours, parts=tuple(parsed["part"]), warnings=tuple(ctx.warnings))
 
 
 def _check_loop_references(ctx: Context, loops: list[LoopSpec], by_name: dict[str, LoopSpec],
@@ -268,6 +269,18 @@ def _check_loop_references(ctx: Context, loops: list[LoopSpec], by_name: dict[st
                      f"terminal {p.terminal!r} already has a part inductance "
                      f"(part[{terminals[(p.element, p.term)]}]); give one value per terminal")
         terminals[(p.element, p.term)] = p.index
+
+
+def _warn_board_size(ctx: Context, traces: list[Trace], vias: list[Via], pins: list[Pin],
+                     pours: tuple[Any, ...] = ()) -> None:
+    """A warning (:mod:`geometry.traps`) when the copper spans more than 1 m."""
+    from geometry.traps import board_size, board_span
+
+    points = [p for t in traces for p in t.points] + [v.at for v in vias] + [p.at for p in pins]
+    points += [p for pour in pours for p in pour.outline]
+    trap = board_size(board_span(points), ctx.units)
+    if trap is not None:
+        ctx.warn(("units",), trap)
 
 
 def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes:

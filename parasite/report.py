@@ -155,7 +155,8 @@ def report_text(report: dict[str, Any], max_couplings: int = 20, top_terms: int 
     if report["loops"]:
         out += ["", "Loops:", format_loop_table(report["loops"]).rstrip("\n")]
         where = {s["id"]: s["name"] or s["source"] for s in segs}
-        out += ["", "Largest terms of each loop (segment terms add up to the loop inductance; "
+        out += ["", "Largest terms of each loop, by magnitude, signed (a negative term is copper "
+                "that cancels the loop's field; segment terms add up to the loop inductance; "
                 "pair terms are the mutual parts of the same value):", ""]
         out.append(format_loop_contributors(report["loops"], top=top_terms, where=where).rstrip("\n"))
     if report.get("probes"):

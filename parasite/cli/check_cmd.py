@@ -17,7 +17,14 @@ import sys
 import click
 
 from parasite.cli import EXIT_OVER_LIMIT, reports_input_errors
-from parasite.cli.options import netlist_arg, progress_callback, quiet_opt, routes_arg
+from parasite.cli.options import (
+    echo_warnings,
+    netlist_arg,
+    progress_callback,
+    quiet_opt,
+    routes_arg,
+    strict_opt,
+)
 
 
 def _pair(value: float, limit: float) -> tuple[str, str]:
@@ -34,9 +41,10 @@ def _pair(value: float, limit: float) -> tuple[str, str]:
 @click.command()
 @netlist_arg
 @routes_arg
+@strict_opt
 @quiet_opt
 @reports_input_errors
-def check(netlist: str, routes: str, quiet: bool) -> None:
+def check(netlist: str, routes: str, strict: bool, quiet: bool) -> None:
     """Check every [[loop]] of ROUTES against its limit: exit 3 when one is over.
 
     Loop inductances are estimates from closed-form formulas; leave a margin
@@ -47,6 +55,7 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
     from parasite.pipeline import extract, load_inputs
 
     inputs = load_inputs(netlist, routes)
+    echo_warnings(list(inputs.graph.warnings), strict)
     if not inputs.routes.loops:
         click.echo(f"{routes}: warning: no [[loop]] entries, nothing to check", err=True)
         return

@@ -128,14 +128,14 @@ def test_library_results_and_report_dicts_print_the_same_rows(demo) -> None:
     for name, result in full.items():
         n = len(result.contributors) - 5
         block = "\n".join(from_results).split(f"{name}: ")[1]
-        assert re.search(rf"rest of the copper \({n} segments\) +-?[\d.]+ [fpnum]?H", block)
+        assert re.search(rf"rest of the copper \({n} segments\) +[+-]?[\d.]+ [fpnum]?H", block)
 
 
 def test_json_keys_of_the_loops_are_unchanged(demo) -> None:
     report, _, _ = demo
     for loop in report["loops"]:
-        assert set(loop) == {"name", "inductance", "resistance", "frequency", "limit",
-                             "within_limit", "contributors", "pair_contributors",
+        assert set(loop) == {"name", "inductance", "resistance", "netlist_resistance", "frequency",
+                             "limit", "within_limit", "contributors", "pair_contributors",
                              "copper_inductance", "parts_inductance", "parts"}
 
 
