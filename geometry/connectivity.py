@@ -157,3 +157,38 @@ class _Connectivity(_State):
                           f"{what} lie between two return planes; imaged in the nearest one "
                           f"(layer {nearest!r}) only (a two-plane image series is not modelled)")
         return out
+
+    def warn_dangling_vias(self, segments: list[Segment], pins: list[PinNode],
+                           nodes: tuple[Node, ...]) -> None:
+        """Warn (:mod:`geometry.traps`) for each via that joins copper on one layer
+        only: nothing else of its net (trace, pin, plane, via, probe contact) at
+        its other layers, so it carries no current. A via end left free is
+        normal (a through via), so is a pin's own hole (a pin where it joins);
+        a via that joins nothing is already an island."""
+        degree = [0] * len(nodes)
+        for s in segments:
+            degree[s.node_from] += 1
+            degree[s.node_to] += 1
+        for pn in pins:
+            degree[pn.node] += 1
+        pin_nodes = {pn.node for pn in pins}
+        chains: dict[str, list[Segment]] = {}
+        for s in segments:
+            if s.kind == "via":
+                chains.setdefault(s.source, []).append(s)
+        for source, chain in chains.items():
+            own = [0] * len(nodes)
+            for s in chain:
+                own[s.node_from] += 1
+                own[s.node_to] += 1
+            ids = list(dict.fromkeys([chain[0].node_from] + [s.node_to for s in chain]))
+            joined = [k for k in ids if nodes[k].plane or degree[k] > own[k]]
+            if len(joined) != 1 or joined[0] in pin_nodes:  # a pin's own hole: normal
+                continue
+            n = nodes[joined[0]]
+            free = ", ".join(repr(nodes[k].layer) for k in ids if k not in joined)
+            self.warn(source, self.line_of(source),
+                      f"the via joins copper of net {n.net!r} on layer {n.layer!r} only; at "
+                      f"{self.fmt_pt(n.point[0], n.point[1])} on layer(s) {free} nothing of the net "
+                      f"meets it (no trace, pin, plane or via): it carries no current and a loop "
+                      f"through it is not the one drawn")

@@ -13,10 +13,13 @@ from typing import Any
 from geometry.locate import KeyPath
 from geometry.model import (
     LoopSpec,
+    MutualLimit,
+    PartInductance,
     Pin,
     Trace,
     Via,
 )
+from geometry.traps import loop_limit, milli_prefix
 from geometry.values import parse_spice_number
 
 if sys.version_info >= (3, 11):
@@ -28,7 +31,9 @@ from geometry.routes_context import Context
 _TRACE_KEYS = ("net", "layer", "width", "points", "name")
 _VIA_KEYS = ("net", "at", "from", "to", "diameter", "wall")
 _PIN_KEYS = ("terminal", "at", "layer")
-_LOOP_KEYS = ("name", "path", "limit", "frequency")
+_LOOP_KEYS = ("name", "path", "limit", "frequency", "mutual", "didt")
+_MUTUAL_KEYS = ("loop", "limit")
+_PART_KEYS = ("terminal", "inductance")
 
 
 def _check_piece_lengths(ctx: Any, path: tuple[Any, ...], points: Sequence[Sequence[float]],
@@ -105,6 +110,9 @@ def _spice_value(ctx: Context, value: Any, path: KeyPath, unit: str) -> float:
         x = parse_spice_number(value)
         if x is None:
             ctx.fail(path, f"must be {what}; got {value!r}")
+        trap = milli_prefix(value, unit)
+        if trap is not None:
+            ctx.warn(path, trap)
     else:
         x = ctx.number(value, path, what)
     if x <= 0:
@@ -121,7 +129,32 @@ def parse_loop_entry(ctx: Context, raw: Any, index: int) -> LoopSpec:
         ctx.fail(path + ("path",), f"must name at least two terminals; got {len(stops)}")
     terms = tuple(ctx.terminal(s, path + ("path", k))[0] for k, s in enumerate(stops))
     limit = _spice_value(ctx, t["limit"], path + ("limit",), "H") if "limit" in t else None
+    if limit is not None and (trap := loop_limit(limit)) is not None:
+        ctx.warn(path + ("limit",), trap)
     freq = (_spice_value(ctx, t["frequency"], path + ("frequency",), "Hz")
             if "frequency" in t else None)
+    mutual = []
+    raw_m = ctx.array(t["mutual"], path + ("mutual",), "tables {loop = NAME, limit = H}") \
+        if "mutual" in t else []
+    for k, item in enumerate(raw_m):
+        mp = path + ("mutual", k)
+        m = ctx.table(item, mp, _MUTUAL_KEYS, _MUTUAL_KEYS)
+        other = ctx.string(m["loop"], mp + ("loop",), "the name of another [[loop]]")
+        if other == name:
+            ctx.fail(mp + ("loop",), f"loop {name!r} names itself; a mutual limit names another loop")
+        mutual.append(MutualLimit(loop=other, limit=_spice_value(ctx, m["limit"], mp + ("limit",), "H"),
+                                  index=k))
+    didt = _spice_value(ctx, t["didt"], path + ("didt",), "A/s") if "didt" in t else None
     return LoopSpec(name=name, path=terms, limit=limit, frequency=freq, index=index,
-                    line=ctx.lines.line_of(path))
+                    line=ctx.lines.line_of(path), mutual=tuple(mutual), didt=didt)
+
+
+def parse_part_entry(ctx: Context, raw: Any, index: int) -> PartInductance:
+    """``[[part]] terminal = "C5:1", inductance = "0.4n"``: a part's own series
+    inductance (H) at one terminal."""
+    path: KeyPath = ("part", index)
+    t = ctx.table(raw, path, _PART_KEYS, _PART_KEYS)
+    text, element, term = ctx.terminal(t["terminal"], path + ("terminal",))
+    value = _spice_value(ctx, t["inductance"], path + ("inductance",), "H")
+    return PartInductance(terminal=text, element=element, term=term, inductance=value,
+                          index=index, line=ctx.lines.line_of(path))

@@ -251,6 +251,7 @@ class _Builder(_Joins, _ProbeLeads, _Connectivity, _State):
         )
         anchors = self.connectivity(node_objs, [s for s in segments if s.kind != "probe"],
                                     pin_nodes)
+        self.warn_dangling_vias(segments, pin_nodes, node_objs)
         self.check_probe_contacts(node_objs, segments, pin_nodes)
         self.nets = self.nets + probe_nets
         mirror = self.mirror(segments, planes)

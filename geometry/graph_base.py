@@ -117,7 +117,7 @@ class _State:
         self.scale = UNIT_SCALE[routes.units]
         self.pin_nets = [canonical_net(n) for n in pin_nets]
         self.anchor_pins = anchor_pins
-        self.warnings: list[str] = []
+        self.warnings: list[str] = list(routes.warnings)
         self.layer_names = list(routes.layers)
         self.layer_id = {n: k for k, n in enumerate(self.layer_names)}
         self.by_height = sorted(routes.layers.values(), key=lambda la: la.z)
@@ -152,8 +152,8 @@ class _State:
     def line_of(self, source: str) -> int | None:
         kind, _, rest = source.partition("[")
         idx = int(rest.partition("]")[0])
-        if kind == "probe":
-            return self.r.probes[idx].line
+        if kind == "probe":  # by the entry's index: a run may attach some probes only
+            return next((p.line for p in self.r.probes if p.index == idx), None)
         entry = self.r.traces[idx] if kind == "trace" else self.r.vias[idx]
         return entry.line
 

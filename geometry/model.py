@@ -106,6 +106,31 @@ class LoopSpec:
     frequency: float | None  # Hz
     index: int
     line: int | None = None
+    mutual: tuple[MutualLimit, ...] = ()  # limits on the mutual with other loops
+    didt: float | None = None  # A/s, this loop's current slope as an aggressor
+
+
+@dataclass(frozen=True)
+class MutualLimit:
+    """A budget on the mutual inductance between the loop that holds it and
+    another ``[[loop]]`` (``|M| <= limit``)."""
+
+    loop: str  # the other loop's name
+    limit: float  # H
+    index: int  # position in the loop's ``mutual`` array
+
+
+@dataclass(frozen=True)
+class PartInductance:
+    """A part's own series inductance at one of its terminals (``[[part]]``):
+    a capacitor's ESL, a package's lead inductance, a connector pin."""
+
+    terminal: str  # as written, e.g. "C5:1"
+    element: str  # lower-case
+    term: str  # lower-case
+    inductance: float  # H
+    index: int
+    line: int | None = None
 
 
 @dataclass(frozen=True)
@@ -195,6 +220,8 @@ class Routes:
     nets: dict[str, NetOptions]
     probes: tuple[Probe, ...] = ()
     pours: tuple[Any, ...] = ()  # geometry.pour.Pour, in file order
+    parts: tuple[PartInductance, ...] = ()
+    warnings: tuple[str, ...] = ()  # unit traps noticed while reading (geometry.traps)
 
 
 @dataclass(frozen=True)

@@ -60,6 +60,7 @@ else:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 from geometry.entries import (
     parse_loop_entry,
+    parse_part_entry,
     parse_pin_entry,
     parse_trace_entry,
     parse_via_entry,
@@ -68,7 +69,7 @@ from geometry.probe_entries import parse_probe_entry
 from geometry.routes_context import DEFAULT_SNAP_M, FORMAT, Context, _describe
 
 _TOP_KEYS = ("format", "units", "snap", "copper", "layers", "nets",
-             "trace", "via", "pin", "loop", "probe", "pour")
+             "trace", "via", "pin", "loop", "probe", "pour", "part")
 _COPPER_KEYS = ("resistivity", "temperature_coefficient", "reference_temperature", "temperature")
 _LAYER_KEYS = ("z", "thickness", "plane")
 _NET_KEYS = ("anchor",)
@@ -94,6 +95,7 @@ ENTRY_PARSERS: dict[str, EntryParser] = {
     "loop": parse_loop_entry,
     "probe": parse_probe_entry,
     "pour": _parse_pour,
+    "part": parse_part_entry,
 }
 
 
@@ -230,6 +232,7 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
                      f"duplicate loop name {lp.name!r} (also loop[{seen_loops[lp.name].index}]); "
                      f"loop names must be unique")
         seen_loops[lp.name] = lp
+    _check_loop_references(ctx, loops, seen_loops, parsed["part"])
 
     pours = tuple(parsed["pour"])
     if pours:
@@ -238,10 +241,46 @@ def _build(data: Mapping[str, Any], ctx: Context) -> Routes:
     copper_nets = {t.net for t in traces} | {v.net for v in vias} | {p.net for p in pours}
     copper_nets |= {la.plane for la in ctx.layers.values() if la.plane is not None}
     nets = _parse_nets(ctx, data["nets"], copper_nets) if "nets" in data else {}
+    _warn_board_size(ctx, traces, vias, pins, pours)
     return Routes(path=ctx.file, units=ctx.units, snap=ctx.snap, copper=copper,
                   layers=ctx.layers, traces=tuple(traces), vias=tuple(vias), pins=tuple(pins),
                   loops=tuple(loops), nets=nets, probes=tuple(parsed["probe"]),
-                  pours=pours)
+                  pours=pours, parts=tuple(parsed["part"]), warnings=tuple(ctx.warnings))
+
+
+def _check_loop_references(ctx: Context, loops: list[LoopSpec], by_name: dict[str, LoopSpec],
+                           parts: list[Any]) -> None:
+    """A loop's ``mutual`` limits name other loops of the file, once each; a
+    terminal has at most one ``[[part]]``."""
+    for lp in loops:
+        seen: set[str] = set()
+        for m in lp.mutual:
+            key = ("loop", lp.index, "mutual", m.index, "loop")
+            if m.loop not in by_name:
+                known = ", ".join(repr(n) for n in by_name)
+                ctx.fail(key, f"loop {lp.name!r} names unknown loop {m.loop!r}; the loops are: {known}")
+            if m.loop in seen:
+                ctx.fail(key, f"loop {lp.name!r} names loop {m.loop!r} twice in 'mutual'")
+            seen.add(m.loop)
+    terminals: dict[tuple[str, str], int] = {}
+    for p in parts:
+        if (p.element, p.term) in terminals:
+            ctx.fail(("part", p.index, "terminal"),
+                     f"terminal {p.terminal!r} already has a part inductance "
+                     f"(part[{terminals[(p.element, p.term)]}]); give one value per terminal")
+        terminals[(p.element, p.term)] = p.index
+
+
+def _warn_board_size(ctx: Context, traces: list[Trace], vias: list[Via], pins: list[Pin],
+                     pours: tuple[Any, ...] = ()) -> None:
+    """A warning (:mod:`geometry.traps`) when the copper spans more than 1 m."""
+    from geometry.traps import board_size, board_span
+
+    points = [p for t in traces for p in t.points] + [v.at for v in vias] + [p.at for p in pins]
+    points += [p for pour in pours for p in pour.outline]
+    trap = board_size(board_span(points), ctx.units)
+    if trap is not None:
+        ctx.warn(("units",), trap)
 
 
 def parse_routes(data: bytes, name: str, fmt: Literal["toml", "json"]) -> Routes:

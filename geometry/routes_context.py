@@ -49,8 +49,16 @@ class Context:
     scale: float = 1.0
     snap: float = DEFAULT_SNAP_M  # m
     layers: dict[str, Layer] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)  # geometry.traps: unit traps
 
     # -- errors ---------------------------------------------------------
+    def warn(self, path: KeyPath, message: str) -> None:
+        """Note a warning at ``path`` (it changes no value)."""
+        from geometry.traps import warning
+
+        self.warnings.append(warning(self.file, self.lines.line_of(path), format_path(path),
+                                     message))
+
     def fail(self, path: KeyPath, message: str) -> NoReturn:
         raise RoutesError(message, file=self.file, line=self.lines.line_of(path),
                           key=format_path(path) or None)

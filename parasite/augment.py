@@ -53,11 +53,17 @@ def analyse(network: Network) -> dict[str, Any]:
 
     extraction = network.extraction
     graph, netlist = extraction.inputs.graph, extraction.inputs.netlist
-    loops = ([loop_result_dict(r) for r in loop_results(graph, netlist, extraction.L, extraction.R)]
-             if graph.routes.loops else [])
+    results = loop_results(graph, netlist, extraction.L, extraction.R) if graph.routes.loops else []
+    loops = [loop_result_dict(r) for r in results]
     probe_entries = (probe_report(extraction, node_labels(network), loops)
                      if graph.routes.probes else [])
-    return build_report(network, loops, probe_entries)
+    report = build_report(network, loops, probe_entries)
+    if results:
+        from parasite.field.loop_report import loop_sections
+        from parasite.report import add_loop_sections
+
+        add_loop_sections(report, loop_sections(graph, results, extraction.L))
+    return report
 
 
 def augment(extraction: Extraction, options: AugmentOptions | None = None,
@@ -91,9 +97,12 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
                          written.inductor_names, network)
 
 
-def _run(inputs: Inputs, min_coupling: float | None, frequency: float | None,
-         keep_segments: bool, progress: Any,
-         broadband: BroadbandOptions | None = None, model: str = "auto") -> AugmentResult:
+def augment_inputs(inputs: Inputs, *, min_coupling: float | None = None,
+                   frequency: float | None = None, keep_segments: bool = False,
+                   progress: Any = None, broadband: BroadbandOptions | None = None,
+                   model: str = "auto") -> AugmentResult:
+    """Extract and augment inputs already read (:mod:`parasite.pipeline`); an error of
+    the copper that names no file names the routes file."""
     from parasite.errors import ParasiteError
     from parasite.pipeline import extract
 
@@ -116,8 +125,9 @@ def augment_files(netlist_path: str, routes_path: str, *, min_coupling: float | 
     ``netlist_path`` ``-`` reads standard input."""
     from parasite.pipeline import load_inputs
 
-    return _run(load_inputs(netlist_path, routes_path), min_coupling, frequency, keep_segments,
-                progress, broadband, model)
+    return augment_inputs(load_inputs(netlist_path, routes_path), min_coupling=min_coupling,
+                          frequency=frequency, keep_segments=keep_segments, progress=progress,
+                          broadband=broadband, model=model)
 
 
 def augment_text(netlist: str | bytes, routes: str | bytes, *,
@@ -137,7 +147,9 @@ def augment_text(netlist: str | bytes, routes: str | bytes, *,
     inputs = inputs_from_text(netlist, routes, routes_format=routes_format,
                               netlist_name=netlist_name, routes_name=routes_name,
                               include_dir=include_dir)
-    return _run(inputs, min_coupling, frequency, keep_segments, progress, broadband, model)
+    return augment_inputs(inputs, min_coupling=min_coupling, frequency=frequency,
+                          keep_segments=keep_segments, progress=progress, broadband=broadband,
+                          model=model)
 
 
 def report_of(netlist: str | bytes, routes: str | bytes, *, fmt: str = "json",

@@ -46,8 +46,16 @@ change does not contribute because the solution is stationary). This is the
 conservative choice for a budget: the high-frequency division minimises
 ``i^T L i`` over the same currents, so it never gives more inductance.
 
-These are estimates from closed-form partial inductances: confirm them by
-measurement before relying on them.
+Parts' own inductance (``[[part]]``, a capacitor's ESL, a package's lead
+inductance): every terminal of the loop's path that has one adds it in series
+(the loop current passes each of its terminals once per visit), uncoupled to
+the copper. ``inductance`` is the total, ``copper_inductance`` the copper's
+share and ``parts`` the parts' terms; the segment terms add up to the copper's
+share.
+
+These are estimates from closed-form partial inductances (and, for parts,
+datasheet values that depend on mounting): confirm them by measurement before
+relying on them.
 """
 
 from __future__ import annotations
@@ -135,12 +143,66 @@ class LoopResult:
     self_terms: tuple[tuple[str, float], ...] = ()  # (segment id, L_ii |i_i|^2) per segment
     pours: tuple[PourUse, ...] = ()  # the pours whose cells carry loop current, in file order
     # (N,) current of every graph segment per 1 A of loop current (complex phasor at the
-    # loop's frequency, real at 0 Hz; 0 off the loop's nets), for pictures
+    # loop's frequency, real at 0 Hz; 0 off the loop's nets), for pictures and fields
     currents: Any = field(default=None, compare=False, repr=False)
+    # (n,) int, indices of the segments the loop's nets own (the others carry no current)
+    segments: Any = field(default=None, compare=False, repr=False)
+    copper_inductance: float | None = None  # H, the copper's share (None: as ``inductance``)
+    parts: tuple[tuple[str, float], ...] = ()  # (terminal as written, H) per [[part]] on the path
+    netlist_resistance: float | None = None  # ohm: the same currents through the R passed in
 
     @property
     def over_limit(self) -> bool:
         return self.within_limit is False
+
+    @property
+    def copper(self) -> float:
+        """The copper's share of the loop inductance (H)."""
+        return self.inductance if self.copper_inductance is None else self.copper_inductance
+
+    def segment_currents(self, n_segments: int) -> np.ndarray:
+        """(N,) complex segment currents (A per 1 A of loop current) over all
+        ``n_segments`` of the graph, 0 on copper the loop's current does not reach;
+        positive in a segment's ``from`` -> ``to`` direction."""
+        out = np.zeros(n_segments, dtype=complex)
+        if self.currents is not None:
+            if len(self.currents) != n_segments:
+                raise ValueError(f"loop {self.name!r} has currents for {len(self.currents)} "
+                                 f"segments, not {n_segments}")
+            out[:] = self.currents
+        return out
+
+
+def path_parts(spec: Any, parts: Sequence[Any], netlist: TerminalLookup,
+               file: str | None = None) -> tuple[tuple[str, float], ...]:
+    """The ``[[part]]`` inductances (terminal as written, H) on the terminals of
+    a loop's path, in path order; a part's terminal matches a stop of the same
+    element on the same netlist terminal (name or position)."""
+    by_element: dict[str, list[Any]] = {}
+    for p in parts:
+        by_element.setdefault(p.element, []).append(p)
+    out = []
+    for text in spec.path:
+        elem, _, term = text.strip().rpartition(":")
+        elem, term = elem.strip().lower(), term.strip().lower()
+        for p in by_element.get(elem, []):
+            if p.term == term or _same_terminal(netlist, p, term, file):
+                out.append((p.terminal, p.inductance))
+    return tuple(out)
+
+
+def _same_terminal(netlist: TerminalLookup, part: Any, term: str, file: str | None) -> bool:
+    """Whether ``part``'s terminal is ``term`` of the same element (name or
+    position); a terminal the element does not have is the routes file's error."""
+    from geometry.errors import RoutesError
+    from parasite.errors import NetlistError
+
+    try:
+        mine = netlist.terminal_index(part.element, part.term)
+    except NetlistError as exc:
+        raise RoutesError(f"part terminal {part.terminal!r}: {exc.message}", file=file,
+                          line=part.line, key=f"part[{part.index}].terminal") from None
+    return mine == netlist.terminal_index(part.element, term)
 
 
 def _all_currents(n: int, segments: Any, currents: np.ndarray) -> np.ndarray:
@@ -191,21 +253,29 @@ def loop_results(
             n_nodes, injection, L_sub, np.asarray(R_all, dtype=float)[segments], f,
         )
         carrying = np.flatnonzero(np.abs(sol.currents) > 1e-12)
-        order = carrying[np.lexsort((carrying, -sol.segment_terms[carrying]))]
+        order = carrying[np.lexsort((carrying, -np.abs(sol.segment_terms[carrying])))]
         ids = [graph.segments[int(s)].id for s in segments]
         contributors = tuple((ids[k], float(sol.segment_terms[k])) for k in order)
         self_terms = tuple((ids[k], float(sol.self_terms[k])) for k in order)
         pairs = tuple(
             (ids[a], ids[b], t) for a, b, t in top_pair_terms(sol.currents, L_sub, top_pairs)
         )
-        within = None if spec.limit is None else bool(sol.inductance <= spec.limit)
+        parts = (path_parts(spec, graph.routes.parts, netlist, graph.routes.path)
+                 if graph.routes.parts else ())
+        total = sol.inductance + math.fsum(v for _, v in parts)
+        within = None if spec.limit is None else bool(total <= spec.limit)
+        # what the netlist's R cards (``R``) give the same currents: sum R_i |i_i|^2
+        r_netlist = float(np.sum(R[segments] * np.abs(sol.currents) ** 2)) if len(R) else 0.0
         results.append(LoopResult(
-            name=spec.name, inductance=sol.inductance, resistance=sol.resistance, frequency=f,
+            name=spec.name, inductance=total, resistance=sol.resistance, frequency=f,
             limit=spec.limit, within_limit=within, contributors=contributors,
             pair_contributors=pairs, index=spec.index, line=spec.line, self_terms=self_terms,
             pours=pour_uses(graph, np.asarray(segments), np.asarray(sol.currents),
                             np.asarray(sol.segment_terms)),
             currents=_all_currents(len(graph.segments), segments, sol.currents),
+            segments=np.asarray(segments, dtype=np.int64), copper_inductance=sol.inductance,
+            parts=parts,
+            netlist_resistance=r_netlist,
         ))
     return results
 
@@ -217,8 +287,11 @@ def loop_results(
 def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str, Any]:
     """The JSON report's entry for one loop (SI units; the keys of the
     command-line contract plus ``contributors`` and ``pair_contributors``, the
-    ``top`` largest terms each, with ``share`` = term / loop inductance; and
-    ``pours`` when the loop's current uses a pour)."""
+    ``top`` largest terms by magnitude each, signed, with ``share`` = term /
+    loop inductance; ``netlist_resistance``: ohm, the loop's resistance from
+    the netlist's R values (DC unless ``--frequency``) beside ``resistance``,
+    the skin-effect estimate at ``frequency``; and ``pours`` when the loop's
+    current uses a pour)."""
 
     def share(x: float) -> float | None:
         return x / r.inductance if r.inductance != 0 else None
@@ -226,7 +299,11 @@ def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str
     return {
         "name": r.name,
         "inductance": r.inductance,
+        "copper_inductance": r.copper,
+        "parts_inductance": r.inductance - r.copper,
+        "parts": [{"terminal": t, "inductance": v} for t, v in r.parts],
         "resistance": r.resistance,
+        "netlist_resistance": r.netlist_resistance,
         "frequency": r.frequency,
         "limit": r.limit,
         "within_limit": r.within_limit,
@@ -249,11 +326,12 @@ def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:
     """Table cells of one loop, from a :class:`LoopResult` or its JSON dict."""
     if isinstance(r, LoopResult):
         name, value, res, freq = r.name, r.inductance, r.resistance, r.frequency
-        limit, within = r.limit, r.within_limit
+        limit, within, r_net = r.limit, r.within_limit, r.netlist_resistance
         first = r.contributors[0] if r.contributors else None
     else:
         name, value, res, freq = r["name"], r["inductance"], r["resistance"], r["frequency"]
         limit, within = r.get("limit"), r.get("within_limit")
+        r_net = r.get("netlist_resistance")
         c = r.get("contributors") or []
         first = (c[0]["segment"], c[0]["inductance"]) if c else None
     top = "-"
@@ -264,6 +342,7 @@ def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:
         str(name),
         engineering(value, "H"),
         engineering(res, "ohm"),
+        "-" if r_net is None else engineering(r_net, "ohm"),
         "DC limit" if not freq else engineering(freq, "Hz"),
         "-" if limit is None else engineering(limit, "H"),
         status,
@@ -273,15 +352,18 @@ def _row(r: LoopResult | Mapping[str, Any]) -> tuple[str, ...]:
 
 def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]]) -> str:
     """An aligned text table of loops (from :class:`LoopResult` objects or the
-    dicts of :func:`loop_result_dict`): value, resistance, frequency of the
-    current division, limit, status and the largest segment term. Ends with a
-    newline; empty string when there are no loops."""
+    dicts of :func:`loop_result_dict`): value, resistance at the loop's
+    frequency (skin-effect estimate) beside the resistance the netlist's R
+    values give (DC unless ``--frequency``), frequency of the current division,
+    limit, status and the largest segment term by magnitude; a legend line
+    says which resistance is which. Ends with a newline; empty string when
+    there are no loops."""
     if not results:
         return ""
-    header = ("loop", "inductance", "resistance", "division at", "limit", "status",
-              "largest term")
+    header = ("loop", "inductance", "resistance at f", "netlist R", "division at (f)", "limit",
+              "status", "largest term")
     rows = [header] + [_row(r) for r in results]
-    numeric = {1, 2, 3, 4}
+    numeric = {1, 2, 3, 4, 5}
     widths = [max(len(row[c]) for row in rows) for c in range(len(header))]
     lines = []
     for row in rows:
@@ -290,6 +372,9 @@ def format_loop_table(results: Sequence[LoopResult] | Sequence[Mapping[str, Any]
             for c, cell in enumerate(row)
         ]
         lines.append("  ".join(cells).rstrip())
+    lines.append("(resistance at f: skin-effect estimate at the loop's frequency; netlist R: the "
+                 "same currents through the R cards of the augmented netlist, DC values unless "
+                 "--frequency)")
     return "\n".join(lines) + "\n"
 
 
@@ -307,6 +392,13 @@ def _pour_lines(r: LoopResult | Mapping[str, Any], value: float) -> list[str]:
                    f"{engineering(p['inductance'], 'H')}{share}, peak cell current "
                    f"{100 * p['peak_current']:.0f}% of the loop's")
     return out
+
+
+def signed(value: float, unit: str) -> str:
+    """``value`` with an SI prefix and its sign always shown (``+1.2 nH``,
+    ``-140 pH``): a negative term is copper that cancels the loop's field."""
+    text = engineering(value, unit)
+    return text if value <= 0 else "+" + text
 
 
 def _contributor_rows(
@@ -331,8 +423,9 @@ def format_loop_contributors(
     *,
     where: Mapping[str, str] | None = None,
 ) -> str:
-    """For each loop, its ``top`` largest segment terms and pair terms with their
-    share of the loop inductance, as aligned text (what to move first).
+    """For each loop, its ``top`` largest segment terms and pair terms by
+    magnitude, with their sign and share of the loop inductance, as aligned
+    text (what to move first; a negative term cancels).
 
     ``results`` are :class:`LoopResult` objects or the dicts of
     :func:`loop_result_dict` (which keep only the largest terms). When more
@@ -350,6 +443,11 @@ def format_loop_contributors(
     blocks = []
     for r in results:
         name, value, segs, pairs, carrying = _contributor_rows(r)
+        if isinstance(r, LoopResult):
+            parts, copper = list(r.parts), r.copper
+        else:
+            parts = [(str(p["terminal"]), float(p["inductance"])) for p in r.get("parts") or []]
+            copper = float(r.get("copper_inductance", value))
 
         def share(x: float, value: float = value) -> str:
             return f"{100 * x / value:.0f}%" if value > 0 else "-"
@@ -359,17 +457,18 @@ def format_loop_contributors(
             continue
         shown = segs[:top]
         rows = [("segment", "term", "share", "entry" if entries else "")]
-        rows += [(sid, engineering(t, "H"), share(t), entries.get(sid, "")) for sid, t in shown]
-        rest = value - math.fsum(t for _, t in shown)
+        rows += [(sid, signed(t, "H"), share(t), entries.get(sid, "")) for sid, t in shown]
+        rest = copper - math.fsum(t for _, t in shown)
         # a dict keeps only the largest terms: whether more copper carries current shows in the sum
         more = (carrying > top if carrying is not None
-                else len(segs) > top or abs(rest) > 1e-9 * abs(value))
+                else len(segs) > top or abs(rest) > 1e-9 * abs(copper))
         if more:
             label = "rest of the copper" + ("" if carrying is None else f" ({carrying - top} segments)")
-            rows.append((label, engineering(rest, "H"), share(rest), ""))
-        rows += [(f"{a} + {b}", engineering(t, "H"), share(t), "mutual") for a, b, t in pairs[:top]]
+            rows.append((label, signed(rest, "H"), share(rest), ""))
+        rows += [(f"part at {t}", signed(v, "H"), share(v), "part") for t, v in parts]
+        rows += [(f"{a} + {b}", signed(t, "H"), share(t), "mutual") for a, b, t in pairs[:top]]
         widths = [max(len(row[c]) for row in rows) for c in range(4)]
-        lines = [f"{name}: {engineering(value, 'H')}, largest terms"]
+        lines = [f"{name}: {engineering(value, 'H')}, largest terms"]  # by magnitude, signed
         for row in rows:
             cells = (row[0].ljust(widths[0]), row[1].rjust(widths[1]),
                      row[2].rjust(widths[2]), row[3])

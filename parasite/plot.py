@@ -3,8 +3,11 @@
 The board view draws every segment to scale (traces as the rectangular bars
 they are modelled as, vias as discs of their diameter), one colour per layer; the
 shade of a segment shows a value per segment: its term of one loop's
-inductance (:mod:`parasite.loops`) or its partial self inductance. Pins carry
-their terminal's name; a scale bar gives the size. Return planes are ideal and
+inductance (:mod:`parasite.loops`) or its partial self inductance. Layers are
+coloured in stack order from the project's colour-blind-safe palette and named
+in the legend (:mod:`parasite.plot_style`); vias have their own scale; probe
+leads are drawn in one colour and named. Pins carry their terminal's name
+(close pins: a column of labels with leaders); a scale bar gives the size. Return planes are ideal and
 are not drawn (the subtitle names them); with a loop, each pour (meshed copper)
 is drawn as a heat map of the loop's current density at the loop's frequency,
 arrows along the current. The coupling view is a heat map of
@@ -39,10 +42,9 @@ if TYPE_CHECKING:
 PlotFormat = Literal["png", "svg"]
 PLOT_FORMATS: tuple[str, ...] = ("png", "svg")
 
-# Sequential colour maps, one per copper layer in the routes file's order; vias
-# and probe leads have their own. Shades use the upper part of each map so that
-# a segment with no share stays visible.
-LAYER_CMAPS = ("Reds", "Blues", "Greens", "Purples", "Oranges", "PuRd", "YlGn", "BuGn")
+# Layers: the project's palette in stack order (parasite.plot_style). Vias have
+# a grey scale of their own range; the upper part of it, so that a via with no
+# share stays visible. Probe leads: one fixed colour, on no scale.
 VIA_CMAP = "Greys"
 SHADE_LOW, SHADE_HIGH = 0.22, 0.95
 DPI = 150
@@ -109,24 +111,6 @@ def _format_length_mm(mm: float) -> str:
     return f"{mm * 1e3:g} um" if mm < 1 else f"{mm:g} mm"
 
 
-def label_rows(points: np.ndarray, radius: float) -> list[int]:
-    """Row of each point's label, so that labels of points closer than
-    ``radius`` (same unit as ``points``, chained) stack instead of overlapping:
-    0 for the first point of each group, 1 for the next, and so on."""
-    from scipy.sparse.csgraph import connected_components
-
-    points = np.asarray(points, dtype=float).reshape(-1, 2)
-    if len(points) == 0:
-        return []
-    d = np.hypot(*(points[:, None, :] - points[None, :, :]).transpose(2, 0, 1))
-    _, group = connected_components(d < radius, directed=False)
-    rows = np.zeros(len(points), dtype=int)
-    for g in np.unique(group):
-        members = np.flatnonzero(group == g)
-        rows[members] = np.arange(len(members))
-    return rows.tolist()
-
-
 def coupling_matrix(L: np.ndarray) -> np.ndarray:
     """k_ij = L_ij / sqrt(L_ii L_jj) (dimensionless; the diagonal is 1)."""
     d = np.sqrt(np.diag(L))
@@ -178,18 +162,26 @@ def _truncated(cmap: Any) -> Any:
 
 
 def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
-                value_label: str, fig: Figure) -> None:
+                value_label: str, fig: Figure) -> list[Any]:
+    """Draw the board on ``ax``; returns the labels to place last
+    (:func:`parasite.plot_labels.place_labels`)."""
     import matplotlib as mpl
-    from matplotlib.cm import ScalarMappable
     from matplotlib.colors import Normalize
     from matplotlib.patches import Circle, Polygon
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
+    from parasite.plot_labels import Label
+    from parasite.plot_style import PROBE_COLOUR, draw_keys, layer_cmap, layer_colours
+
     norm = Normalize(vmin=0.0, vmax=vmax if vmax > 0 else 1.0)
-    file_layers = [ly.name for ly in graph.routes.layers.values() if ly.plane is None]
-    cmaps = {name: _truncated(mpl.colormaps[LAYER_CMAPS[k % len(LAYER_CMAPS)]])
-             for k, name in enumerate(file_layers)}
+    trace_layers = [ly for ly in graph.routes.layers.values() if ly.plane is None]
+    hues = layer_colours([(ly.name, ly.z) for ly in trace_layers])
+    file_layers = sorted((ly.name for ly in trace_layers), key=lambda n: list(hues).index(n))
+    cmaps = {name: layer_cmap(hues[name]) for name in file_layers}
     via_cmap = _truncated(mpl.colormaps[VIA_CMAP])
+    via_values = [values[s.index] for s in graph.segments if s.kind == "via"]
+    via_max = max(via_values, default=0.0)
+    via_norm = Normalize(vmin=0.0, vmax=via_max if via_max > 0 else 1.0)  # the vias' own range
     rank = _layer_rank(graph)
     top_rank = max(rank.values(), default=0)
 
@@ -232,23 +224,28 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
     round_segments.sort(key=lambda s: (values[s.index], s.index))  # largest share on top
     for s in round_segments:
         ax.add_patch(Circle((1e3 * s.start[0], 1e3 * s.start[1]), 1e3 * s.width / 2,
-                            facecolor=shade(via_cmap, values[s.index]), edgecolor="black",
+                            facecolor=via_cmap(via_norm(max(values[s.index], 0.0))), edgecolor="black",
                             linewidth=0.5, zorder=20.0, gid=f"segment:{s.id}"))
+    lead_ends: dict[str, Segment] = {}
     for s in graph.segments:
         if s.kind == "probe":
             ax.plot([1e3 * s.start[0], 1e3 * s.end[0]], [1e3 * s.start[1], 1e3 * s.end[1]],
-                    color=shade(via_cmap, values[s.index]), linewidth=1.5, linestyle="--",
+                    color=PROBE_COLOUR, linewidth=1.3, linestyle="-.",
                     zorder=21.0, gid=f"segment:{s.id}")
+            lead_ends[s.source] = s  # the last piece of each lead
+    probes = {f"probe[{p.index}]": p.name for p in graph.routes.probes}
+    labels: list[Label] = []
+    for source, s in lead_ends.items():  # one label per probe, at its tip lead's end
+        entry, _, lead = source.partition(".")
+        if lead == "tip_lead":
+            labels.append(Label(f"probe {probes.get(entry, entry)}", (1e3 * s.end[0], 1e3 * s.end[1]),
+                                f"probe:{probes.get(entry, entry)}", PROBE_COLOUR, 7.0))
 
     x0, x1, y0, y1 = _board_extent(graph)
     at = np.array([[1e3 * pn.pin.at[0], 1e3 * pn.pin.at[1]] for pn in graph.pins]).reshape(-1, 2)
-    rows = label_rows(at, 0.03 * max(x1 - x0, y1 - y0))
-    for pn, (x, y), row in zip(graph.pins, at, rows, strict=True):
+    for pn, (x, y) in zip(graph.pins, at, strict=True):
         ax.plot([x], [y], marker="o", markersize=3.5, color="black", zorder=30.0)
-        ax.annotate(pn.pin.terminal, (x, y), xytext=(4, 4 + 11 * row), textcoords="offset points",
-                    fontsize=8, zorder=31.0, gid=f"pin:{pn.pin.terminal}",
-                    bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "alpha": 0.8,
-                          "linewidth": 0})
+        labels.append(Label(pn.pin.terminal, (float(x), float(y)), f"pin:{pn.pin.terminal}"))
 
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
@@ -260,22 +257,10 @@ def _draw_board(ax: Axes, graph: CopperGraph, values: np.ndarray, vmax: float,
                                   pad=0.4, borderpad=0.5, sep=3, frameon=True, size_vertical=0,
                                   fontproperties={"size": 8}))
 
-    # One colour bar per drawn layer (and vias), the same scale on each.
     drawn = [name for name in file_layers if any(s.layer == name for s in traces)]
-    bars: list[tuple[str, Any]] = [(name, cmaps[name]) for name in drawn]
-    if round_segments:
-        bars.append(("vias", via_cmap))
-    # Each new colour bar goes between the axes and the bars before it: add them
-    # from the right, so they read in layer order, with the scale on the rightmost.
-    for k, (name, cmap) in enumerate(reversed(bars)):
-        sm = ScalarMappable(norm=norm, cmap=cmap)
-        cb = fig.colorbar(sm, ax=ax, fraction=0.025, pad=0.015, aspect=30)
-        cb.ax.set_title(name, fontsize=8, rotation=90)
-        if k == 0:
-            cb.set_label(value_label, fontsize=8)
-            cb.ax.tick_params(labelsize=7)
-        else:
-            cb.ax.set_yticks([])
+    draw_keys(fig, ax, [(name, hues[name], cmaps[name]) for name in drawn], norm,
+              (via_cmap, via_norm) if round_segments else None, bool(lead_ends), value_label)
+    return labels
 
 
 def _draw_couplings(ax: Axes, graph: CopperGraph, L: np.ndarray, fig: Figure) -> None:
@@ -299,12 +284,16 @@ def _draw_couplings(ax: Axes, graph: CopperGraph, L: np.ndarray, fig: Figure) ->
     ends = np.concatenate([edges, [len(net)]])
     n = len(order)
     if n <= 40:
-        labels = [graph.segments[int(i)].id for i in order]
+        from parasite.plot_style import segment_label
+
+        labels = [segment_label(graph.segments[int(i)].id) for i in order]
         ax.set_xticks(np.arange(n), labels, rotation=90, fontsize=7)
         ax.set_yticks(np.arange(n), labels, fontsize=7)
     else:
         centres = (starts + ends - 1) / 2.0
-        names = [graph.nets[int(net[s])] for s in starts]
+        from parasite.plot_style import net_label
+
+        names = [net_label(graph.nets[int(net[s])]) for s in starts]
         ax.set_xticks(centres, names, rotation=90, fontsize=7)
         ax.set_yticks(centres, names, fontsize=7)
     ax.set_title("coupling coefficient k, segments by net", fontsize=9)
@@ -355,7 +344,7 @@ def board_figure(
         ax, ax_k = fig.subplots(1, 2, gridspec_kw={"width_ratios": [board_w, 6.0]})
     else:
         ax = fig.subplots()
-    _draw_board(ax, graph, values, vmax, value_label, fig)
+    labels = _draw_board(ax, graph, values, vmax, value_label, fig)
     if loop is not None and loop.currents is not None and any(s.kind == "cell" for s in graph.segments):
         draw_pour_currents(ax, graph, loop, fig)
     planes = ", ".join(f"{p.layer} (net {p.net})" for p in graph.planes)
@@ -368,6 +357,9 @@ def board_figure(
         ax_k.set_axis_off()
     fig.suptitle("estimates from closed-form formulas; confirm by measurement", fontsize=7,
                  color="0.35")
+    from parasite.plot_labels import place_labels
+
+    place_labels(fig, ax, labels)  # last: the layout is done and then frozen
     return fig
 
 

@@ -155,13 +155,15 @@ def report_text(report: dict[str, Any], max_couplings: int = 20, top_terms: int 
     if report["loops"]:
         out += ["", "Loops:", format_loop_table(report["loops"]).rstrip("\n")]
         where = {s["id"]: s["name"] or s["source"] for s in segs}
-        out += ["", "Largest terms of each loop (segment terms add up to the loop inductance; "
+        out += ["", "Largest terms of each loop, by magnitude, signed (a negative term is copper "
+                "that cancels the loop's field; segment terms add up to the loop inductance; "
                 "pair terms are the mutual parts of the same value):", ""]
         out.append(format_loop_contributors(report["loops"], top=top_terms, where=where).rstrip("\n"))
     if report.get("probes"):
         from parasite.probes import format_probe_table
 
         out += ["", f"Probes: {len(report['probes'])}"] + format_probe_table(report["probes"])
+    out += loop_coupling_text(report)
     sm = report["summary"]
     out += ["", "Summary:"]
     out += [f"  {k}: {v}" for k, v in sm.items()]
@@ -170,15 +172,93 @@ def report_text(report: dict[str, Any], max_couplings: int = 20, top_terms: int 
     return "\n".join(out) + "\n"
 
 
-CSV_TABLES = ("segments", "couplings", "loops")
+LOOP_SECTIONS = ("loop_pairs", "mutual_limits", "pickup", "dipoles")
+CSV_TABLES = ("segments", "couplings", "loops") + LOOP_SECTIONS
+_CSV_FIELDS = {
+    "loop_pairs": ["a", "b", "mutual", "k", "shared", "flux", "quadrature"],
+    "mutual_limits": ["loop", "other", "mutual", "limit", "within_limit", "line", "key"],
+    "pickup": ["victim", "aggressor", "didt", "mutual", "voltage"],
+    "dipoles": ["loop", "magnitude", "moment_x", "moment_y", "moment_z", "moment_with_images",
+                "closed", "size", "frequency", "distance", "e_field", "e_field_dbuv", "far_field",
+                "small_loop"],
+}
+
+
+def add_loop_sections(report: dict[str, Any], sections: dict[str, list[dict[str, Any]]]) -> None:
+    """Put the loop-coupling sections (:func:`parasite.field.loop_report.loop_sections`)
+    into ``report``, with ``summary.mutual_over_limit``."""
+    for key in LOOP_SECTIONS:
+        report[key] = sections.get(key, [])
+    report["summary"]["mutual_over_limit"] = sum(
+        1 for e in report["mutual_limits"] if not e["within_limit"])
+
+
+def loop_coupling_text(report: dict[str, Any]) -> list[str]:
+    """Text lines of the loop-coupling sections: the mutual (nH) and k matrices,
+    shared and flux parts, limits, pick-up and dipole estimates."""
+    from parasite.units import engineering
+
+    pairs = report.get("loop_pairs") or []
+    out: list[str] = []
+    if pairs:
+        names = [lp["name"] for lp in report["loops"]]
+        own = {lp["name"]: lp.get("copper_inductance", lp["inductance"]) for lp in report["loops"]}
+        by = {(p["a"], p["b"]): p for p in pairs} | {(p["b"], p["a"]): p for p in pairs}
+        out += ["", "Mutual inductance between loops, nH (copper only; diagonal: the loop's "
+                "copper inductance):"]
+        out += _table(["loop"] + names, [[a] + [f"{1e9 * (own[a] if a == b else by[(a, b)]['mutual']):.4f}"
+                                                for b in names] for a in names],
+                      right=set(range(1, len(names) + 1)))
+        out += ["", "Loop pairs (shared: copper both loops carry; flux: the rest):"]
+        out += _table(["a", "b", "M nH", "k", "shared nH", "flux nH"],
+                      [[p["a"], p["b"], f"{1e9 * p['mutual']:.4f}",
+                        "-" if p["k"] is None else f"{p['k']:+.4f}", f"{1e9 * p['shared']:.4f}",
+                        f"{1e9 * p['flux']:.4f}"] for p in pairs], right={2, 3, 4, 5})
+    limits = report.get("mutual_limits") or []
+    if limits:
+        out += ["", "Mutual limits:"]
+        out += _table(["loop", "other", "|M|", "limit", "status"],
+                      [[e["loop"], e["other"], engineering(abs(e["mutual"]), "H"),
+                        engineering(e["limit"], "H"), "ok" if e["within_limit"] else "OVER"]
+                       for e in limits], right={2, 3})
+    pick = report.get("pickup") or []
+    if pick:
+        out += ["", "Victim pick-up, v = M di/dt (open victim loop):"]
+        out += _table(["victim", "aggressor", "di/dt A/ns", "M nH", "v"],
+                      [[e["victim"], e["aggressor"], f"{1e-9 * e['didt']:.4g}",
+                        f"{1e9 * e['mutual']:.4f}", engineering(e["voltage"], "V")] for e in pick],
+                      right={2, 3, 4})
+    dip = report.get("dipoles") or []
+    if dip:
+        out += ["", f"Magnetic dipole moment per 1 A and radiated-field ESTIMATE ({dip[0]['note']}):"]
+        out += _table(["loop", "|m| mm2", "with images mm2", "closed", "f", "distance m", "E dBuV/m"],
+                      [[d["loop"], f"{1e6 * d['magnitude']:.2f}", f"{1e6 * d['moment_with_images']:.2f}",
+                        "yes" if d["closed"] else "no", engineering(d["frequency"], "Hz"),
+                        f"{d['distance']:g}",
+                        "-" if d["e_field_dbuv"] is None else f"{d['e_field_dbuv']:.1f}"] for d in dip],
+                      right={1, 2, 4, 5, 6})
+    return out
 
 
 def report_csv(report: dict[str, Any], table: str = "segments") -> str:
     """One table of the report as CSV (SI units, header row first)."""
-    rows = report[table]
     buf = io.StringIO()
+    if table not in report and table in LOOP_SECTIONS:
+        rows = []
+    else:
+        rows = report[table]
     if table == "loops":
         rows = [{k: v for k, v in r.items() if not isinstance(v, list | dict)} for r in rows]
+    if table == "dipoles":
+        rows = [{k: v for k, v in r.items() if k not in ("moment", "note")}
+                | {f"moment_{c}": r["moment"][n] for n, c in enumerate("xyz")} for r in rows]
+    if table in _CSV_FIELDS:
+        fields = _CSV_FIELDS[table]
+        writer = csv.DictWriter(buf, fieldnames=fields, lineterminator="\n", extrasaction="ignore")
+        writer.writeheader()
+        for r in rows:
+            writer.writerow({k: ("" if r.get(k) is None else r.get(k)) for k in fields})
+        return buf.getvalue()
     fields = list(rows[0].keys()) if rows else {
         "segments": ["id", "net", "kind", "layer", "from", "to", "length", "width", "thickness",
                      "inductance", "resistance", "source", "name"],

@@ -57,10 +57,13 @@ def write_netlist(network: Network, ladders: BranchLadders | None = None,
     written as its reduced model, a subcircuit at the ports."""
     graph = network.graph
     netlist = copy.deepcopy(network.extraction.inputs.netlist)
-    if not graph.segments:
-        return WrittenNetlist(netlist.to_bytes(), [])
     nodes = NameAllocator(network.reserved_names)
     elements = NameAllocator(netlist.element_names())
+    if not graph.segments:
+        parts = part_cards(graph.routes, netlist, nodes, elements)
+        if parts:
+            netlist.append_cards(parts + ["* ---- end of parasite parts ----"])
+        return WrittenNetlist(netlist.to_bytes(), [])
     names = network.node_names
     cards: list[str] = []
     inductor_names: list[str] = []
@@ -78,12 +81,40 @@ def write_netlist(network: Network, ladders: BranchLadders | None = None,
     for pin in graph.pins:
         if pin.node != graph.anchors.get(pin.net):
             netlist.rename_terminal(pin.pin.element, pin.pin.term, names[pin.node])
+    cards += part_cards(graph.routes, netlist, nodes, elements)
     if reduction is not None:
         header = _reduced_header(network, reduction)
     else:
         header = _header(network) + ([] if ladders is None else ladders.header_lines())
     netlist.append_cards(header + cards + ["* ---- end of parasite copper ----"])
     return WrittenNetlist(netlist.to_bytes(), inductor_names)
+
+
+def part_cards(routes: Any, netlist: Any, nodes: NameAllocator,
+               elements: NameAllocator) -> list[str]:
+    """The parts' own inductances (``[[part]]``): the terminal moves to a new
+    node and an inductor joins it to the node it was on (after the pins have
+    placed it on the copper), so the part's inductance is in series at that
+    terminal. Raises :class:`geometry.errors.RoutesError` for a terminal the
+    netlist does not have."""
+    from geometry.errors import RoutesError
+    from parasite.errors import NetlistError
+
+    cards: list[str] = []
+    for part in routes.parts:
+        try:
+            node = netlist.terminal_node(part.element, part.term)
+        except NetlistError as exc:  # unknown element or terminal: the routes file's place
+            raise RoutesError(f"part terminal {part.terminal!r}: {exc.message}", file=routes.path,
+                              line=part.line, key=f"part[{part.index}].terminal") from None
+        tag = sanitize(f"{part.element}_{part.term}")
+        new = nodes.new(f"part_{tag}")
+        netlist.rename_terminal(part.element, part.term, new)
+        if not cards:
+            cards.append("* parts' own inductance ([[part]]): datasheet or estimated values, "
+                         "which depend on mounting")
+        cards.append(f"{elements.new('Lpart_' + tag)} {new} {node} {_fmt(part.inductance)}")
+    return cards
 
 
 def _fmt(x: float) -> str:

@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import click
 
 from parasite.cli import reports_input_errors
 from parasite.cli.options import (
     band_opt,
     broadband_opt,
+    echo_warnings,
     frequency_opt,
     min_coupling_opt,
     netlist_arg,
@@ -15,7 +18,11 @@ from parasite.cli.options import (
     progress_callback,
     quiet_opt,
     routes_arg,
+    strict_opt,
 )
+
+if TYPE_CHECKING:
+    from geometry.model import Routes
 
 
 @click.command()
@@ -35,18 +42,23 @@ from parasite.cli.options import (
                    "(reduced), or whichever is smaller when the reduced one is accurate (auto).")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
               help="Also write the JSON report of this run to this file.")
+@click.option("--probes", "probes", default=None, metavar="none|NAME,...",
+              help="Which [[probe]] entries to attach: 'none', or names separated by commas. "
+                   "Default: every probe of ROUTES.")
+@strict_opt
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
             frequency: float | None, broadband: bool, band: str | None, keep_segments: bool,
-            model: str,
-            report_path: str | None, quiet: bool) -> None:
+            model: str, report_path: str | None, probes: str | None, strict: bool,
+            quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
 
     The values are estimates from closed-form formulas, to be confirmed by
     measurement.
     """
+    from geometry.routes import load_routes
     from parasite.augment import augment_files
     from parasite.network.ladders import BroadbandOptions
     from parasite.outputs import check_outputs, input_files, write_outputs
@@ -61,15 +73,44 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     wide = BroadbandOptions(band=fband) if fband else (BroadbandOptions() if broadband else None)
     outputs = [output] if report_path is None else [report_path, output]
     check_outputs(outputs, [netlist, routes])
-    result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
-                           keep_segments=keep_segments, progress=progress_callback(quiet),
-                           broadband=wide, model=model)
+    if probes is None:
+        result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
+                               keep_segments=keep_segments, progress=progress_callback(quiet),
+                               broadband=wide, model=model)
+    else:
+        from parasite.augment import augment_inputs
+        from parasite.pipeline import inputs_of, read_netlist_arg
+
+        chosen = select_probes(load_routes(routes), probes)
+        loaded = inputs_of(read_netlist_arg(netlist), chosen, netlist, routes)
+        result = augment_inputs(loaded, min_coupling=min_coupling, frequency=frequency,
+                                keep_segments=keep_segments, progress=progress_callback(quiet),
+                                broadband=wide, model=model)
     inputs = input_files(netlist, routes, result.network.extraction.inputs.netlist
                          if result.network is not None else None)
     check_outputs(outputs, inputs)  # now also the files the netlist includes
-    for w in result.report["warnings"]:
-        click.echo(f"{routes}: warning: {w}", err=True)
+    echo_warnings(result.report["warnings"], strict, f"{routes}: ")
     items = [(output, result.netlist_bytes)]
     if report_path is not None:
         items.insert(0, (report_path, report_json(result.report).encode()))
     write_outputs(items, inputs)
+
+
+def select_probes(routes: Routes, spec: str) -> Routes:
+    """``routes`` with only the probes ``spec`` names: ``none``, or names
+    separated by commas (case ignored, as probe names are). An unknown name is
+    a usage error that lists the probes of the file."""
+    import dataclasses
+
+    if spec.strip().lower() == "none":
+        return dataclasses.replace(routes, probes=())
+    wanted = [w.strip() for w in spec.split(",") if w.strip()]
+    by_name = {p.name.lower(): p for p in routes.probes}
+    unknown = [w for w in wanted if w.lower() not in by_name]
+    if unknown or not wanted:
+        known = ", ".join(repr(p.name) for p in routes.probes) or "none"
+        raise click.BadParameter(
+            f"{routes.path} has no probe named {', '.join(repr(u) for u in unknown) or repr(spec)}; "
+            f"its probes: {known} (or 'none')", param_hint="'--probes'")
+    keep = {w.lower() for w in wanted}
+    return dataclasses.replace(routes, probes=tuple(p for p in routes.probes if p.name.lower() in keep))

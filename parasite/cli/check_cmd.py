@@ -3,8 +3,11 @@
 Prints the loop table on standard output, and for the loops over their limit
 their largest segment and pair terms. For every loop over its limit, a line
 ``ROUTES:LINE: loop 'NAME' is over its limit: VALUE > LIMIT`` goes to
-standard error and the exit code is 3. Exit 0 when every loop with a limit is
-within it, 1 when the input is in error.
+standard error and the exit code is 3. A loop's ``mutual`` limits (the
+mutual inductance with another named loop, e.g. a gate loop's common-source
+inductance against its power loop) are checked the same way: ``|M| <= limit``.
+Exit 0 when every loop and pair with a limit is within it, 1 when the input is
+in error.
 """
 
 from __future__ import annotations
@@ -14,7 +17,14 @@ import sys
 import click
 
 from parasite.cli import EXIT_OVER_LIMIT, reports_input_errors
-from parasite.cli.options import netlist_arg, progress_callback, quiet_opt, routes_arg
+from parasite.cli.options import (
+    echo_warnings,
+    netlist_arg,
+    progress_callback,
+    quiet_opt,
+    routes_arg,
+    strict_opt,
+)
 
 
 def _pair(value: float, limit: float) -> tuple[str, str]:
@@ -31,9 +41,10 @@ def _pair(value: float, limit: float) -> tuple[str, str]:
 @click.command()
 @netlist_arg
 @routes_arg
+@strict_opt
 @quiet_opt
 @reports_input_errors
-def check(netlist: str, routes: str, quiet: bool) -> None:
+def check(netlist: str, routes: str, strict: bool, quiet: bool) -> None:
     """Check every [[loop]] of ROUTES against its limit: exit 3 when one is over.
 
     Loop inductances are estimates from closed-form formulas; leave a margin
@@ -44,6 +55,7 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
     from parasite.pipeline import extract, load_inputs
 
     inputs = load_inputs(netlist, routes)
+    echo_warnings(list(inputs.graph.warnings), strict)
     if not inputs.routes.loops:
         click.echo(f"{routes}: warning: no [[loop]] entries, nothing to check", err=True)
         return
@@ -53,11 +65,32 @@ def check(netlist: str, routes: str, quiet: bool) -> None:
     text = format_loop_table(results)
     if over:  # what to move first
         text += "\n" + format_loop_contributors(over, top=3, graph=inputs.graph)
+    limits = _mutual_limits(inputs.graph, results, extraction.L)
+    if limits:
+        from parasite.report import loop_coupling_text
+
+        text += "\n" + "\n".join(loop_coupling_text({"mutual_limits": limits})).lstrip("\n") + "\n"
     write_output("-", text.encode())
     for r in over:
         assert r.limit is not None
         value, limit = _pair(r.inductance, r.limit)
         where = f"{routes}:{r.line}" if r.line is not None else f"{routes}: loop[{r.index}]"
         click.echo(f"{where}: loop {r.name!r} is over its limit: {value} > {limit}", err=True)
-    if over:
+    mutual_over = [e for e in limits if not e["within_limit"]]
+    for e in mutual_over:
+        value, limit = _pair(abs(e["mutual"]), e["limit"])
+        where = f"{routes}:{e['line']}" if e["line"] is not None else f"{routes}: {e['key']}"
+        click.echo(f"{where}: mutual of loops {e['loop']!r} and {e['other']!r} is over its limit: "
+                   f"{value} > {limit}", err=True)
+    if over or mutual_over:
         sys.exit(EXIT_OVER_LIMIT)
+
+
+def _mutual_limits(graph: object, results: list, L: object) -> list[dict]:
+    """The ``mutual`` limits of the loops with their values (copper only)."""
+    from parasite.field.loop_report import limit_entries, loop_coupling_matrix
+
+    specs = list(graph.routes.loops)  # type: ignore[attr-defined]
+    if not any(s.mutual for s in specs):
+        return []
+    return limit_entries(specs, results, loop_coupling_matrix(results, L))  # type: ignore[arg-type]

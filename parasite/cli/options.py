@@ -16,11 +16,13 @@ class SpiceNumber(click.ParamType):
     name = "number"
 
     def __init__(self, minimum: float | None = None, exclusive: bool = True,
-                 maximum: float | None = None, max_exclusive: bool = False) -> None:
+                 maximum: float | None = None, max_exclusive: bool = False,
+                 unit: str = "") -> None:
         self.minimum = minimum
         self.exclusive = exclusive
         self.maximum = maximum
         self.max_exclusive = max_exclusive
+        self.unit = unit  # for the unit-trap warning (geometry.traps.milli_prefix)
 
     def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> float:
         try:
@@ -34,6 +36,13 @@ class SpiceNumber(click.ParamType):
                                          else x > self.maximum):
             rel = "<" if self.max_exclusive else "<="
             self.fail(f"{value!r} must be {rel} {self.maximum:g}", param, ctx)
+        if isinstance(value, str):
+            from geometry.traps import milli_prefix
+
+            trap = milli_prefix(value, self.unit)
+            if trap is not None:  # a warning only: the value keeps its SPICE meaning
+                name = param.opts[0] if param is not None and param.opts else "option"
+                click.echo(f"warning: {name}: {trap}", err=True)
         return x
 
 
@@ -41,7 +50,7 @@ netlist_arg = click.argument("netlist", type=click.Path(dir_okay=False, allow_da
 routes_arg = click.argument("routes", type=click.Path(dir_okay=False))
 frequency_opt = click.option(
     "--frequency", type=SpiceNumber(minimum=FREQUENCY_RANGE_HZ[0], exclusive=False,
-                                    maximum=FREQUENCY_RANGE_HZ[1]), default=None,
+                                    maximum=FREQUENCY_RANGE_HZ[1], unit="Hz"), default=None,
     help="Resistance at this frequency in Hz (skin effect estimate), 1e-6 to 1e12; default DC. "
          "Accepts 100meg.",
 )
@@ -79,6 +88,24 @@ def parse_band(value: str | None) -> tuple[float, float] | None:
 
 
 quiet_opt = click.option("--quiet", "-q", is_flag=True, help="No progress on standard error.")
+strict_opt = click.option(
+    "--strict", is_flag=True,
+    help="Treat every warning (unit traps, dangling vias, islands...) as an error: print them, "
+         "write nothing, exit 1. For makefiles.",
+)
+
+
+def echo_warnings(warnings: list[str], strict: bool, prefix: str = "") -> None:
+    """Print ``warnings`` on standard error; with ``strict``, as errors, then exit 1
+    (call it before anything is written)."""
+    import sys
+
+    for w in warnings:
+        text = w if ": warning: " in w else f"{prefix}warning: {w}"
+        click.echo(text.replace(": warning: ", ": error: ", 1) if strict else text, err=True)
+    if strict and warnings:
+        click.echo(f"error: {len(warnings)} warning(s) and --strict: nothing written", err=True)
+        sys.exit(1)
 
 
 def progress_callback(quiet: bool) -> Any:

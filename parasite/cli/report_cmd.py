@@ -6,12 +6,14 @@ import click
 
 from parasite.cli import reports_input_errors
 from parasite.cli.options import (
+    echo_warnings,
     frequency_opt,
     min_coupling_opt,
     netlist_arg,
     progress_callback,
     quiet_opt,
     routes_arg,
+    strict_opt,
 )
 
 
@@ -20,15 +22,18 @@ from parasite.cli.options import (
 @routes_arg
 @click.option("--format", "fmt", type=click.Choice(["text", "json", "csv"]), default="text",
               show_default=True)
-@click.option("--table", type=click.Choice(["segments", "couplings", "loops"]), default="segments",
+@click.option("--table", type=click.Choice(["segments", "couplings", "loops", "loop_pairs",
+                                           "mutual_limits", "pickup", "dipoles"]),
+              default="segments",
               show_default=True, help="With --format csv: which table.")
 @click.option("-o", "--output", default="-", show_default=True, help="A file, or - for standard output.")
 @min_coupling_opt
 @frequency_opt
+@strict_opt
 @quiet_opt
 @reports_input_errors
 def report(netlist: str, routes: str, fmt: str, table: str, output: str,
-           min_coupling: float | None, frequency: float | None, quiet: bool) -> None:
+           min_coupling: float | None, frequency: float | None, strict: bool, quiet: bool) -> None:
     """Report the segments, couplings, loops and warnings of NETLIST + ROUTES
     (SI units in JSON and CSV)."""
     from parasite.augment import augment_files
@@ -38,6 +43,8 @@ def report(netlist: str, routes: str, fmt: str, table: str, output: str,
     check_output_path(output, [netlist, routes])
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                            progress=progress_callback(quiet))
+    if strict:  # the report lists its warnings itself; --strict stops here
+        echo_warnings(result.report["warnings"], strict)
     text = format_report(result.report, fmt, table)
     write_output(output, text.encode(), input_files(
         netlist, routes, result.network.extraction.inputs.netlist

@@ -80,6 +80,8 @@ def _check(L: np.ndarray, currents: np.ndarray) -> None:
 def carried(currents: np.ndarray, tolerance: float = CARRY_TOLERANCE) -> np.ndarray:
     """Boolean (loops, N): which segments carry each loop's current."""
     mag = np.abs(np.atleast_2d(currents))
+    if mag.shape[1] == 0:  # no copper
+        return np.zeros(mag.shape, dtype=bool)
     top = mag.max(axis=1, keepdims=True)
     return mag > tolerance * np.where(top > 0, top, 1.0)
 

@@ -173,8 +173,9 @@ def solve_port(
 def top_pair_terms(
     currents: np.ndarray, L: np.ndarray, count: int, *, tolerance: float = 1e-12
 ) -> list[tuple[int, int, float]]:
-    """The ``count`` largest mutual terms ``2 L_ij Re(conj(i_i) i_j)`` (H), ``i < j``,
-    largest first, as ``(i, j, term)`` (indices into ``currents``)."""
+    """The ``count`` largest mutual terms ``2 L_ij Re(conj(i_i) i_j)`` (H) by
+    magnitude, ``i < j``, largest first, as ``(i, j, term)`` with their sign
+    (indices into ``currents``): a cancelling (negative) term ranks by its size."""
     if count <= 0 or len(currents) < 2:
         return []
     active = np.flatnonzero(np.abs(currents) > tolerance)
@@ -185,7 +186,8 @@ def top_pair_terms(
     a, b = np.triu_indices(len(active), k=1)
     values = P[a, b]
     k = min(count, len(values))
-    pick = np.argpartition(-values, k - 1)[:k]
-    # Largest first; ties in index order so that the output is deterministic.
-    pick = pick[np.lexsort((b[pick], a[pick], -values[pick]))]
+    size = np.abs(values)
+    pick = np.argpartition(-size, k - 1)[:k]
+    # Largest magnitude first; ties in index order so that the output is deterministic.
+    pick = pick[np.lexsort((b[pick], a[pick], -size[pick]))]
     return [(int(active[a[p]]), int(active[b[p]]), float(values[p])) for p in pick]

@@ -253,6 +253,10 @@ def analyse_ring(
                                              base_dir)
         aug_deck = aug.netlist_bytes if probe is not None else with_save(aug.netlist_bytes,
                                                                           aug_node)
+        if len(aug.report.get("loops", [])) > 1:  # the loops' currents, for the pick-up
+            from parasite.field.sim_pickup import save_loop_currents
+
+            aug_deck = save_loop_currents(aug_deck, aug)
         aug_res = run_ngspice(aug_deck, base_dir=base_dir, timeout=timeout,
                               name=aug_name, progress=stage("simulating the augmented netlist"))
         if probe is not None:
@@ -273,6 +277,10 @@ def analyse_ring(
         loop_info = _pick_loop(list(aug.report.get("loops", [])), loop, routes_path)
         if loop_info is not None:
             report["loop"] = {k: loop_info.get(k) for k in ("name", "inductance", "resistance")}
+        if loop_info is not None and len(aug.report.get("loops", [])) > 1:
+            from parasite.field.sim_pickup import simulated_pickup  # other loops as victims
+
+            report["pickup"] = simulated_pickup(aug, aug_res, str(loop_info["name"]))
     ideal_wave = Waveform("ideal", t_i, v_i)
 
     # The ring capacitance for each direction: given, or from the blocking switch.

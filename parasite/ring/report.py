@@ -149,6 +149,14 @@ def format_ring_text(report: dict[str, Any], *, all_edges: bool = False) -> str:
             out.append(f"(loop {loop['name']!r} from the routes file: "
                        f"L = {loop['inductance'] * 1e9:.2f} nH, "
                        f"R = {loop['resistance'] * 1e3:.2f} mOhm)")
+    pick = report.get("pickup") or []
+    if pick:
+        out += ["", f"Pick-up of the other loops from loop {pick[0]['aggressor']!r}'s simulated "
+                f"current (v = M di/dt, current read in {pick[0]['branch']}; docs/field.md):"]
+        out += _table(["victim", "M (nH)", "peak v (V)", "at (us)", "di/dt (A/ns)"],
+                      [[e["victim"], _num(e["mutual"], 1e9, 3), _num(e["peak_voltage"], 1.0, 4),
+                        _num(e["time"], 1e6, 4), _num(e["peak_didt"], 1e-9, 4)] for e in pick],
+                      right={1, 2, 3, 4})
     from parasite.ring.budget import budget_lines
 
     out += budget_lines(report.get("damping_budget", []), report.get("copper_model", "DC resistance"))

@@ -43,7 +43,9 @@ def test_within_budget_exits_0_and_prints_the_table(tmp_path):
     assert lines[0].split()[:3] == ["loop", "inductance", "resistance"]
     assert lines[1].startswith("rect ") and " ok " in lines[1]
     assert "nH" in lines[1]
-    assert p.stderr == ""  # not a terminal: no progress, no warning
+    # not a terminal: no progress; the one warning is the board's own (the port's
+    # two nets overlap at the cut), printed as every subcommand prints warnings
+    assert [ln for ln in p.stderr.splitlines() if "overlaps copper of net" not in ln] == []
 
 
 def test_over_budget_exits_3_naming_loop_value_and_limit(tmp_path):

@@ -16,13 +16,10 @@ from parasite.field import loop_coupling, mutual_impedance
 from parasite.loops import loop_results
 from parasite.pipeline import extract, load_inputs
 from parasite.spice import run_ngspice
-from tests.field.loop_currents import loop_currents
 
 pytestmark = pytest.mark.ngspice
 
 FIXTURES = Path(__file__).resolve().parents[2] / "fixtures" / "field"
-POWER = ["VB:1", "IP:1", "IP:2", "VB:2"]
-GATE = ["RD:1", "VGS:1", "VGS:2", "RD:2"]
 DIDT = 10.0 / 1e-6  # A/s: IP ramps from -5 A to +5 A between 1 us and 2 us
 
 
@@ -71,10 +68,12 @@ def test_gate_loop_voltage_is_m_didt(tmp_path: Path, extra: list[str]) -> None:
     1925), within 1%, and the real part of parasite.field.mutual_impedance at DC."""
     inputs = load_inputs(str(FIXTURES / "common_source.cir"), str(FIXTURES / "common_source.routes.toml"))
     ex = extract(inputs)
-    ip = loop_currents(inputs.graph, POWER, ex.L, ex.R)
-    ig = loop_currents(inputs.graph, GATE, ex.L, ex.R)
+    results = {r.name: r for r in loop_results(inputs.graph, inputs.netlist, ex.L, ex.R)}
+    n = len(inputs.graph.segments)
+    ip = results["power"].segment_currents(n).real
+    ig = results["gate"].segment_currents(n).real
     c = loop_coupling(ex.L, ip, ig)
-    own = {r.name: r.inductance for r in loop_results(inputs.graph, inputs.netlist, ex.L, ex.R)}
+    own = {name: r.inductance for name, r in results.items()}
     assert c.self_a == pytest.approx(own["power"], rel=1e-9)
     assert c.self_b == pytest.approx(own["gate"], rel=1e-9)
     assert c.shared > 0 and c.flux < 0 and c.mutual > 0

@@ -154,7 +154,7 @@ def test_key_paths_and_line_scan() -> None:
 
 def test_entry_parsers_table_has_a_probe_hook() -> None:
     """Each [[kind]] has its parser in one table; the probes feature plugs in there."""
-    assert list(ENTRY_PARSERS) == ["trace", "via", "pin", "loop", "probe", "pour"]
+    assert list(ENTRY_PARSERS) == ["trace", "via", "pin", "loop", "probe", "pour", "part"]
 
 
 def test_bom_and_empty_board() -> None:

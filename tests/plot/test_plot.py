@@ -130,7 +130,14 @@ def test_svg_has_one_artist_per_segment_and_a_label_per_pin():
 
 
 def test_png_decodes_with_the_layer_colours():
+    """Each layer is drawn in its own hue of the palette, in stack order from
+    the top: the top layer's largest segment (14 nH, the scale's top) in the
+    darkest shade of the first hue, the bottom layer's (13 nH) in the second
+    hue's shade at 13/14 of the scale; each colour covers many pixels (within
+    3/255 per channel: PNG rounding and anti-aliased edges)."""
     import matplotlib.image as mpimg
+
+    from parasite.plot_style import LAYER_HUES, layer_cmap
 
     graph = hand_graph()
     data = plot_bytes(graph, hand_L(), "png", couplings=True)
@@ -138,9 +145,79 @@ def test_png_decodes_with_the_layer_colours():
     image = mpimg.imread(io.BytesIO(data), format="png")
     assert image.ndim == 3 and image.shape[0] > 500 and image.shape[1] > 1500
     rgb = image[..., :3].reshape(-1, 3)
-    reddish = np.sum((rgb[:, 0] > 0.6) & (rgb[:, 1] < 0.45) & (rgb[:, 2] < 0.45))
-    bluish = np.sum((rgb[:, 2] > 0.6) & (rgb[:, 0] < 0.45))
-    assert reddish > 1000 and bluish > 1000  # top layer in reds, bottom in blues
+    top = np.array(layer_cmap(LAYER_HUES[0])(1.0)[:3])
+    bottom = np.array(layer_cmap(LAYER_HUES[1])(13 / 14)[:3])
+    for colour in (top, bottom):
+        assert np.sum(np.all(np.abs(rgb - colour) < 3 / 255, axis=1)) > 1000
+
+
+def test_palette_in_stack_order_and_distinct_in_lightness():
+    """Layers take the hues in stack order from the top, whatever the file's
+    order. The hues are the Okabe-Ito set (Okabe and Ito 2008, colour-blind
+    safe); neighbours among the first six differ by at least 12 in CIE L*
+    (sRGB to L* by IEC 61966-2-1 and CIE 1976, computed here), so that they
+    stay apart in lightness under any colour-vision deficiency (common
+    practice: lightness survives where hue does not)."""
+    from parasite.plot_style import LAYER_HUES, layer_colours
+
+    okabe_ito = {"#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7"}
+    assert set(LAYER_HUES) == okabe_ito
+    hues = layer_colours([("bottom", 0.0), ("in2", 0.5e-3), ("top", 1.565e-3), ("in1", 1.0e-3)])
+    assert [hues[n] for n in ("top", "in1", "in2", "bottom")] == list(LAYER_HUES[:4])
+
+    def lightness(hexcode: str) -> float:
+        c = [int(hexcode[i:i + 2], 16) / 255 for i in (1, 3, 5)]
+        c = [x / 12.92 if x <= 0.04045 else ((x + 0.055) / 1.055) ** 2.4 for x in c]
+        y = 0.2126 * c[0] + 0.7152 * c[1] + 0.0722 * c[2]
+        f = y ** (1 / 3) if y > 216 / 24389 else (24389 / 27 * y + 16) / 116
+        return 116 * f - 16
+
+    assert lightness("#FFFFFF") == pytest.approx(100.0, abs=1e-6)
+    assert all(abs(lightness(a) - lightness(b)) >= 12 for a, b in zip(LAYER_HUES[:5], LAYER_HUES[1:6],
+                                                                       strict=True))
+
+
+def test_legend_names_the_layers_top_first_and_vias_have_their_own_scale():
+    """The legend names each drawn layer, top first, then the vias; the vias'
+    colour bar spans the vias' own values (1 nH here), not the traces' 14 nH."""
+    fig = board_figure(hand_graph(), hand_L())
+    board = fig.axes[0]
+    texts = [t.get_text() for t in board.get_legend().get_texts()]
+    assert texts == ["layer top", "layer bottom", "vias"]
+    via_bar = [a for a in fig.axes if a.get_title() == "vias"][0]
+    assert max(via_bar.get_ylim()) == pytest.approx(1.0)  # nH
+
+
+def test_close_pin_labels_do_not_overlap():
+    """Six pins 1 mm apart in a row and a column on a 40 mm board: every label
+    box is clear of every other (measured with matplotlib's renderer)."""
+    from parasite.plot_labels import boxes_overlap
+
+    graph = hand_graph()
+    extra = [Pin(f"U1:{k}", "u1", str(k), ((5 + k) * MM, 0.0), "top", 3 + k) for k in range(6)]
+    extra += [Pin(f"U2:{k}", "u2", str(k), (20 * MM, (1 + k) * MM), "top", 9 + k) for k in range(6)]
+    pins = graph.pins + tuple(PinNode(p, "sw", 0) for p in extra)
+    import dataclasses
+
+    graph = dataclasses.replace(graph, pins=pins)
+    fig = board_figure(graph, hand_L())
+    gids = [f"pin:{p.pin.terminal}" for p in pins]
+    assert len([t for t in fig.axes[0].texts if t.get_gid() in gids]) == len(pins)
+    assert boxes_overlap(fig, gids) == []
+
+
+def test_segment_names_of_numbered_nets_do_not_read_as_numbers():
+    """``0.4`` (segment 4 of net 0) is written ``gnd.4`` ('gnd' is '0', project
+    convention); other numbered nets are spelt ``net12.3``; names stay."""
+    from parasite.plot_style import segment_label
+
+    assert segment_label("0.4") == "gnd.4"
+    assert segment_label("12.3") == "net12.3"
+    assert segment_label("sw.2") == "sw.2"
+    assert segment_label("probe:p1:tip.1") == "probe:p1:tip.1"
+    from parasite.plot_style import net_label
+
+    assert [net_label(n) for n in ("0", "12", "sw")] == ["gnd", "net12", "sw"]
 
 
 def test_couplings_panel_orders_segments_by_net():
@@ -152,7 +229,7 @@ def test_couplings_panel_orders_segments_by_net():
     k = images[0].get_array()
     assert k.shape == (4, 4)
     assert k[0, 2] == pytest.approx(-2 / np.sqrt(14 * 13))
-    assert [t.get_text() for t in heat.get_yticklabels()] == ["sw.1", "sw.2", "0.3", "0.4"]
+    assert [t.get_text() for t in heat.get_yticklabels()] == ["sw.1", "sw.2", "gnd.3", "gnd.4"]
     assert len([p for p in board.patches if (p.get_gid() or "").startswith("segment:")]) == 4
 
 
@@ -231,8 +308,21 @@ def test_plot_command_errors(tmp_path, monkeypatch):
     assert not (tmp_path / "y.png").exists()
 
 
-def test_labels_of_nearby_pins_stack():
-    from parasite.plot import label_rows
+def test_probe_leads_are_named_and_on_no_colour_scale():
+    """The probe of the probe_resistor fixture: its leads drawn in the one
+    probe colour (whatever their inductance), a label with the probe's name,
+    and 'probe leads' in the legend."""
+    from matplotlib.colors import to_hex
 
-    pts = np.array([[0.0, 0.0], [0.0, 0.0], [0.3, 0.0], [10.0, 0.0], [0.6, 0.1]])
-    assert label_rows(pts, 0.5) == [0, 1, 2, 0, 3]
+    from parasite.pipeline import extract, load_inputs
+    from parasite.plot_style import PROBE_COLOUR
+    from tests.boards import ROUTES
+
+    inputs = load_inputs(str(ROUTES / "probe_resistor.cir"), str(ROUTES / "probe_resistor.routes.toml"))
+    fig = board_figure(inputs.graph, extract(inputs).L)
+    board = fig.axes[0]
+    leads = [ln for ln in board.get_lines() if (ln.get_gid() or "").startswith("segment:probe")]
+    assert len(leads) == sum(1 for s in inputs.graph.segments if s.kind == "probe") > 0
+    assert {to_hex(ln.get_color()) for ln in leads} == {PROBE_COLOUR}
+    assert [t.get_text() for t in board.texts if t.get_gid() == "probe:p1"] == ["probe p1"]
+    assert "probe leads" in [t.get_text() for t in board.get_legend().get_texts()]

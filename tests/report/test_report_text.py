@@ -7,7 +7,7 @@ and the printed segment terms plus the "rest of the copper" row add up to the
 loop's printed value within the rounding of the printed digits (the terms add
 up to the loop inductance exactly by Tellegen's theorem, see parasite.loops).
 The JSON keys of the loops stay those of the command-line contract plus the
-two lists of terms.
+two lists of terms and the split between copper and parts ([[part]]).
 """
 
 from __future__ import annotations
@@ -128,14 +128,15 @@ def test_library_results_and_report_dicts_print_the_same_rows(demo) -> None:
     for name, result in full.items():
         n = len(result.contributors) - 5
         block = "\n".join(from_results).split(f"{name}: ")[1]
-        assert re.search(rf"rest of the copper \({n} segments\) +-?[\d.]+ [fpnum]?H", block)
+        assert re.search(rf"rest of the copper \({n} segments\) +[+-]?[\d.]+ [fpnum]?H", block)
 
 
 def test_json_keys_of_the_loops_are_unchanged(demo) -> None:
     report, _, _ = demo
     for loop in report["loops"]:
-        assert set(loop) == {"name", "inductance", "resistance", "frequency", "limit",
-                             "within_limit", "contributors", "pair_contributors"}
+        assert set(loop) == {"name", "inductance", "resistance", "netlist_resistance", "frequency",
+                             "limit", "within_limit", "contributors", "pair_contributors",
+                             "copper_inductance", "parts_inductance", "parts"}
 
 
 def test_a_loop_without_copper_says_so() -> None:
