@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from geometry.components import component_roots
 from geometry.errors import RoutesError
 from geometry.graph_base import (
     _listing,
@@ -27,18 +28,11 @@ class _Connectivity(_State):
     def connectivity(self, nodes: tuple[Node, ...], segments: list[Segment],
                      pins: list[PinNode]) -> dict[str, int]:
         r = self.r
-        parent = list(range(len(nodes)))
+        roots = component_roots(len(nodes), [s.node_from for s in segments],
+                                [s.node_to for s in segments]).tolist()
 
         def find(a: int) -> int:
-            while parent[a] != a:
-                parent[a] = parent[parent[a]]
-                a = parent[a]
-            return a
-
-        for s in segments:
-            ra, rb = find(s.node_from), find(s.node_to)
-            if ra != rb:
-                parent[max(ra, rb)] = min(ra, rb)
+            return roots[a]
 
         pins_of: dict[str, list[PinNode]] = {}
         for pn in pins:

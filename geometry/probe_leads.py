@@ -9,6 +9,7 @@ import math
 
 import numpy as np
 
+from geometry.components import component_roots
 from geometry.errors import RoutesError
 from geometry.graph_base import (
     _State,
@@ -118,19 +119,13 @@ class _ProbeLeads(_State):
         leads would float, outside the circuit)."""
         if not self.r.probes:
             return
-        parent = list(range(len(nodes)))
+        copper = [s for s in segments if s.kind != "probe"]
+        roots = component_roots(len(nodes), [s.node_from for s in copper],
+                                [s.node_to for s in copper]).tolist()
 
         def find(a: int) -> int:
-            while parent[a] != a:
-                parent[a] = parent[parent[a]]
-                a = parent[a]
-            return a
+            return roots[a]
 
-        for s in segments:
-            if s.kind != "probe":
-                ra, rb = find(s.node_from), find(s.node_to)
-                if ra != rb:
-                    parent[max(ra, rb)] = min(ra, rb)
         with_pin = {find(pn.node) for pn in pins}
         for n, pr in enumerate(self.r.probes):
             for j, key in enumerate(("tip", "ground")):

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
+from geometry.components import component_roots
 from geometry.model import CopperGraph
 
 
@@ -35,13 +36,6 @@ class Branch:
     node_to: int
 
 
-def _find(parent: list[int], a: int) -> int:
-    while parent[a] != a:
-        parent[a] = parent[parent[a]]
-        a = parent[a]
-    return a
-
-
 def conducting_segments(graph: CopperGraph, keep_nodes: Iterable[int]) -> np.ndarray:
     """Boolean mask of the segments that can carry a conduction current: those
     connected to an anchor, less dangling stubs (pruned repeatedly from their
@@ -50,14 +44,9 @@ def conducting_segments(graph: CopperGraph, keep_nodes: Iterable[int]) -> np.nda
     arrays = graph.arrays
     nf = arrays.node_from.astype(int)
     nt = arrays.node_to.astype(int)
-    parent = list(range(n_nodes))
-    for a, b in zip(nf.tolist(), nt.tolist(), strict=True):
-        ra, rb = _find(parent, a), _find(parent, b)
-        if ra != rb:
-            parent[max(ra, rb)] = min(ra, rb)
-    anchored = {_find(parent, a) for a in graph.anchors.values()}
-    roots = np.array([_find(parent, a) for a in nf.tolist()], dtype=int)
-    mask = np.isin(roots, list(anchored)) if len(roots) else np.zeros(0, dtype=bool)
+    node_root = component_roots(n_nodes, nf, nt)
+    anchored = node_root[list(graph.anchors.values())]
+    mask = np.isin(node_root[nf], anchored)
 
     keep = np.zeros(n_nodes, dtype=bool)
     keep[list(keep_nodes)] = True
