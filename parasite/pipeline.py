@@ -59,10 +59,11 @@ def inputs_of(netlist: Netlist, routes: Routes, netlist_path: str, routes_path: 
 
 
 def check_size(graph: CopperGraph, routes_path: str) -> None:
-    """Refuse a board of more pieces than :data:`geometry.limits.MAX_PIECES`,
-    before the N x N matrix is computed."""
+    """Refuse a board of more pieces than :data:`geometry.limits.MAX_PIECES`, or
+    whose dense matrices would not fit in memory, before the N x N matrix is computed."""
     from geometry.errors import RoutesError
     from geometry.limits import MAX_PIECES
+    from parasite.extract.memory import check_dense_fits
 
     n = len(graph.segments)
     if n > MAX_PIECES:
@@ -70,6 +71,7 @@ def check_size(graph: CopperGraph, routes_path: str) -> None:
                           f"inductance matrix would take {8 * n * n / 1e9:.1f} GB; a limit far "
                           f"above any real board, see 'Limits' in docs/routes-file.md)",
                           file=routes_path)
+    check_dense_fits(n, routes_path)
 
 
 def load_inputs(netlist_path: str, routes_path: str) -> Inputs:
