@@ -21,8 +21,10 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components, minimum_spanning_tree
+from scipy.sparse.csgraph import minimum_spanning_tree
 from scipy.sparse.linalg import splu
+
+from geometry.components import component_roots
 
 
 def incidence(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> sp.csc_matrix:
@@ -55,11 +57,9 @@ def _spanning_forest(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -
 
 
 def node_components(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> np.ndarray:
-    """Connected-component label of every node (isolated nodes included)."""
-    adj = sp.coo_matrix(
-        (np.ones(len(node_from)), (node_from, node_to)), shape=(n_nodes, n_nodes)
-    )
-    return connected_components(adj, directed=False)[1]
+    """Connected-component label of every node (isolated nodes included): the least
+    node id of its piece (:func:`geometry.components.component_roots`)."""
+    return component_roots(n_nodes, node_from, node_to)
 
 
 def branch_currents(
