@@ -72,6 +72,19 @@ def _panel_edges(result: RingResult, d: int) -> dict[str, int | None]:
 def ring_figure(result: RingResult, *, fmt: str = "png") -> bytes:
     """The picture (PNG or SVG bytes): one panel per edge direction, a
     simulated edge with the measured edge paired with it lined up on it."""
+    from parasite.plot import DPI
+
+    fig = build_ring_figure(result)
+    buf = io.BytesIO()
+    if fmt == "svg":
+        fig.savefig(buf, format="svg", metadata={"Date": None})
+    else:
+        fig.savefig(buf, format="png", dpi=DPI, metadata={"Software": None})
+    return buf.getvalue()
+
+
+def build_ring_figure(result: RingResult) -> Any:
+    """The matplotlib Figure of :func:`ring_figure`, laid out."""
     from parasite.plot import DPI, require_matplotlib
 
     require_matplotlib()
@@ -113,15 +126,12 @@ def ring_figure(result: RingResult, *, fmt: str = "png") -> bytes:
         ax.text(0.0, -0.2, "\n".join(notes), transform=ax.transAxes, fontsize=6.5,
                 va="top", ha="left", family="monospace")
     where = result.report.get("read_at") or f"node {result.report.get('node')}"
-    fig.suptitle(f"Ringing at {where}: estimates, to be confirmed by measurement",
-                 fontsize=10)
+    import textwrap
+
+    title = f"Ringing at {where}: estimates, to be confirmed by measurement"
+    fig.suptitle("\n".join(textwrap.wrap(title, 110)), fontsize=9)
     fig.tight_layout()
-    buf = io.BytesIO()
-    if fmt == "svg":
-        fig.savefig(buf, format="svg", metadata={"Date": None})
-    else:
-        fig.savefig(buf, format="png", dpi=DPI, metadata={"Software": None})
-    return buf.getvalue()
+    return fig
 
 
 def _draw(ax: Any, wave: Waveform, shift: float, t0: float, t1: float, t_ref: float,
