@@ -55,6 +55,7 @@ from parasite.schedule import run_map
 
 DEFAULT_FMAX = 1e9  # Hz
 DEFAULT_TOLERANCE = 2e-3  # complex relative error of each entry of Z (0.2 %, 0.11 degree)
+THREADED_ORDER = 150  # unknowns from which the full solves run on a thread per core (bench_schedule.py)
 FLOOR = 1e-3  # entries below this fraction of sqrt(|Z_ii Z_jj|) are judged against that
 
 
@@ -288,9 +289,11 @@ def _scheduled_impedance(Rf: np.ndarray, Lf: np.ndarray, P: int, freqs: np.ndarr
                          scheduler: str | Any | None) -> np.ndarray:
     """:func:`port_impedance`, each frequency an independent dense solve through
     :func:`parasite.schedule.run_map` (in process on a thread per core, or on a Dask
-    cluster; one BLAS thread per point either way, so the same bytes)."""
+    cluster; one BLAS thread per point either way, so the same bytes). Below
+    THREADED_ORDER unknowns a point is too small to pay for a thread."""
     task = partial(_impedance_point, Rf=Rf, Lf=Lf, P=P)
-    out = run_map(task, [float(f) for f in freqs], scheduler=scheduler, threads=True)
+    out = run_map(task, [float(f) for f in freqs], scheduler=scheduler,
+                  threads=Rf.shape[0] >= THREADED_ORDER)
     return np.array(out, dtype=complex).reshape(len(freqs), P, P)
 
 
