@@ -85,7 +85,7 @@ def test_local_cluster_gives_the_same_bytes(tmp_path: Path,
     assert (net_empty, rep_empty) == (net_here, rep_here)
 
 
-@pytest.mark.parametrize("command", ["augment", "report", "check"])
+@pytest.mark.parametrize("command", ["augment", "report", "check", "ring"])
 def test_unreachable_scheduler_is_a_clear_error(tmp_path: Path, command: str) -> None:
     """A scheduler address where nothing listens: exit 1 (the run cannot be done as
     asked, as with an input in error; the same address may come from the environment,
@@ -97,6 +97,8 @@ def test_unreachable_scheduler_is_a_clear_error(tmp_path: Path, command: str) ->
     args = [command, cir, rt, "--scheduler", address, "-q"]
     if command != "check":
         args += ["-o", str(out)]
+    if command == "ring":
+        args += ["--node", "a0"]
     res = CliRunner().invoke(main, args)
     assert res.exit_code == EXIT_INPUT_ERROR, res.output
     assert address in res.output and "dask scheduler" in res.output
