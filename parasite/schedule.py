@@ -8,13 +8,17 @@ sent to that ``dask.distributed`` scheduler (``tcp://host:8786``), or to a
 ``distributed.Client`` passed in. Results come back in the order of the items and are
 the same numbers whichever way the work ran (each item is computed by the same
 function on the same inputs, with the numerical libraries on one thread: see
-:func:`_single_threaded`). How to start a cluster: docs/scale.md.
+:func:`_single_threaded`). The command line's ``--scheduler ADDRESS`` opens one
+connection for the whole command with :func:`connected`, before any work starts.
+How to start a cluster: docs/scale.md.
 """
 
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from typing import Any, TypeVar
 
 from parasite.errors import ParasiteError
@@ -22,8 +26,13 @@ from parasite.errors import ParasiteError
 ENV = "PARASITE_SCHEDULER"
 """Environment variable naming a Dask scheduler address used when none is given."""
 
+CONNECT_TIMEOUT = 30.0
+"""Seconds to wait for a Dask scheduler to answer."""
+
 T = TypeVar("T")
 R = TypeVar("R")
+
+_ACTIVE: ContextVar[Any] = ContextVar("parasite_scheduler_client", default=None)
 
 
 def scheduler_address(scheduler: str | None = None) -> str | None:
@@ -52,29 +61,94 @@ class _Single:
 
 
 def run_map(func: Callable[[T], R], items: Iterable[T], *,
-            scheduler: str | Any | None = None) -> list[R]:
+            scheduler: str | Any | None = None, threads: bool = False) -> list[R]:
     """[func(item) for item in items], in process or on a Dask cluster (module
     docstring). ``func`` and the items must be picklable for a cluster (a module-level
-    function, arrays)."""
+    function, arrays). Without ``scheduler`` the connection of :func:`connected` is
+    used if one is open, else ``$PARASITE_SCHEDULER``. In process, ``threads`` runs
+    the items on a thread per core (for work that is numpy/LAPACK only, which
+    releases the interpreter lock; not numba's parallel loops): the same numbers,
+    as every item still runs with one BLAS thread."""
     work = list(items)
     task = _single_threaded(func)
+    if scheduler is None:
+        scheduler = _ACTIVE.get()
     if scheduler is not None and not isinstance(scheduler, str):
         return _on_client(scheduler, task, work)
     address = scheduler_address(scheduler)
     if address is None:
-        return [task(x) for x in work]
+        return _in_process(func, work, threads)
+    with _connect(address) as client:
+        return _on_client(client, task, work)
+
+
+def _in_process(func: Callable[[T], R], work: list[T], threads: bool) -> list[R]:
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=1):  # once for all the items: as _single_threaded
+        n = min(len(work), os.cpu_count() or 1) if threads else 1
+        if n <= 1:
+            return [func(x) for x in work]
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(max_workers=n) as pool:
+            return list(pool.map(func, work))
+
+
+def _connect(address: str) -> Any:
+    """A ``distributed.Client`` of the scheduler at ``address``; ParasiteError naming
+    the address when it does not answer (a refused TCP connection is told at once,
+    not after the client's timeout)."""
     try:
         from distributed import Client
     except ImportError as exc:  # pragma: no cover - dask is a dependency
         raise ParasiteError("a scheduler address needs the 'distributed' package "
                             "(pip install 'dask[distributed]')") from exc
+    hint = f"start one with 'dask scheduler' (docs/scale.md), or give no --scheduler and unset {ENV}"
+    if address.startswith("tcp://"):
+        import socket
+        from urllib.parse import urlsplit
+
+        try:
+            where = urlsplit(address)
+            host, port = where.hostname, where.port
+        except ValueError as exc:
+            raise ParasiteError(f"the Dask scheduler address {address!r} is not "
+                                f"tcp://HOST:PORT ({exc})") from exc
+        if not host or port is None:
+            raise ParasiteError(f"the Dask scheduler address {address!r} is not tcp://HOST:PORT")
+        try:
+            socket.create_connection((host, port), timeout=CONNECT_TIMEOUT).close()
+        except OSError as exc:
+            raise ParasiteError(f"cannot reach the Dask scheduler at {address!r} ({exc}); "
+                                f"{hint}") from exc
     try:
-        client = Client(address, timeout=30, set_as_default=False)
-    except OSError as exc:
+        return Client(address, timeout=CONNECT_TIMEOUT, set_as_default=False)
+    except (OSError, ValueError, TypeError) as exc:
         raise ParasiteError(f"cannot reach the Dask scheduler at {address!r} ({exc}); "
-                            f"start one with 'dask scheduler' or unset {ENV}") from exc
-    with client:
-        return _on_client(client, task, work)
+                            f"{hint}") from exc
+
+
+@contextmanager
+def connected(scheduler: str | None = None) -> Iterator[Any]:
+    """Within the block, :func:`run_map` calls that name no scheduler run on the one
+    at ``scheduler`` (else ``$PARASITE_SCHEDULER``; none or empty: in process).
+    The connection is made here, before any work: an unreachable address is a
+    ParasiteError at once. Yields the client, or None in process."""
+    address = scheduler_address(scheduler)
+    if address is None:
+        token = _ACTIVE.set("")  # in process, whatever $PARASITE_SCHEDULER says
+        try:
+            yield None
+        finally:
+            _ACTIVE.reset(token)
+        return
+    with _connect(address) as client:
+        token = _ACTIVE.set(client)
+        try:
+            yield client
+        finally:
+            _ACTIVE.reset(token)
 
 
 def _apply(item: Any, task: Callable[[Any], Any]) -> Any:

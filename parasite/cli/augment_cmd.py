@@ -18,6 +18,7 @@ from parasite.cli.options import (
     progress_callback,
     quiet_opt,
     routes_arg,
+    scheduler_opt,
     strict_opt,
 )
 
@@ -46,12 +47,13 @@ if TYPE_CHECKING:
               help="Which [[probe]] entries to attach: 'none', or names separated by commas. "
                    "Default: every probe of ROUTES.")
 @strict_opt
+@scheduler_opt
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
             frequency: float | None, broadband: bool, band: str | None, keep_segments: bool,
             model: str, report_path: str | None, probes: str | None, strict: bool,
-            quiet: bool) -> None:
+            scheduler: str | None, quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
 
@@ -63,6 +65,7 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     from parasite.network.ladders import BroadbandOptions
     from parasite.outputs import check_outputs, input_files, write_outputs
     from parasite.report import report_json
+    from parasite.schedule import connected
 
     fband = parse_band(band)
     if (broadband or fband) and frequency is not None:
@@ -73,6 +76,7 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     wide = BroadbandOptions(band=fband) if fband else (BroadbandOptions() if broadband else None)
     outputs = [output] if report_path is None else [report_path, output]
     check_outputs(outputs, [netlist, routes])
+    click.get_current_context().with_resource(connected(scheduler))  # before any work
     if probes is None:
         result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                                keep_segments=keep_segments, progress=progress_callback(quiet),

@@ -23,6 +23,7 @@ from parasite.cli.options import (
     progress_callback,
     quiet_opt,
     routes_arg,
+    scheduler_opt,
     strict_opt,
 )
 
@@ -42,9 +43,11 @@ def _pair(value: float, limit: float) -> tuple[str, str]:
 @netlist_arg
 @routes_arg
 @strict_opt
+@scheduler_opt
 @quiet_opt
 @reports_input_errors
-def check(netlist: str, routes: str, strict: bool, quiet: bool) -> None:
+def check(netlist: str, routes: str, strict: bool, scheduler: str | None,
+           quiet: bool) -> None:
     """Check every [[loop]] of ROUTES against its limit: exit 3 when one is over.
 
     Loop inductances are estimates from closed-form formulas; leave a margin
@@ -53,7 +56,9 @@ def check(netlist: str, routes: str, strict: bool, quiet: bool) -> None:
     from parasite.loops import format_loop_contributors, format_loop_table, loop_results
     from parasite.outputs import write_output
     from parasite.pipeline import extract, load_inputs
+    from parasite.schedule import connected
 
+    click.get_current_context().with_resource(connected(scheduler))  # before any work
     inputs = load_inputs(netlist, routes)
     echo_warnings(list(inputs.graph.warnings), strict)
     if not inputs.routes.loops:

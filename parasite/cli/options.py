@@ -87,6 +87,13 @@ def parse_band(value: str | None) -> tuple[float, float] | None:
     return lo, hi
 
 
+scheduler_opt = click.option(
+    "--scheduler", default=None, metavar="ADDRESS",
+    help="Run the independent solves on the Dask scheduler at ADDRESS (tcp://HOST:8786) instead "
+         "of in this process (for now the reduced model's check of the full copper, one dense "
+         "solve per frequency; check's loops stay in process); overrides $PARASITE_SCHEDULER "
+         "('' : in process). Same output either way.",
+)
 quiet_opt = click.option("--quiet", "-q", is_flag=True, help="No progress on standard error.")
 strict_opt = click.option(
     "--strict", is_flag=True,

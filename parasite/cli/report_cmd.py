@@ -13,6 +13,7 @@ from parasite.cli.options import (
     progress_callback,
     quiet_opt,
     routes_arg,
+    scheduler_opt,
     strict_opt,
 )
 
@@ -30,17 +31,21 @@ from parasite.cli.options import (
 @min_coupling_opt
 @frequency_opt
 @strict_opt
+@scheduler_opt
 @quiet_opt
 @reports_input_errors
 def report(netlist: str, routes: str, fmt: str, table: str, output: str,
-           min_coupling: float | None, frequency: float | None, strict: bool, quiet: bool) -> None:
+           min_coupling: float | None, frequency: float | None, strict: bool,
+           scheduler: str | None, quiet: bool) -> None:
     """Report the segments, couplings, loops and warnings of NETLIST + ROUTES
     (SI units in JSON and CSV)."""
     from parasite.augment import augment_files
     from parasite.outputs import check_output_path, input_files, write_output
     from parasite.report import format_report
+    from parasite.schedule import connected
 
     check_output_path(output, [netlist, routes])
+    click.get_current_context().with_resource(connected(scheduler))  # before any work
     result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
                            progress=progress_callback(quiet))
     if strict:  # the report lists its warnings itself; --strict stops here

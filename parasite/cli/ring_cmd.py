@@ -8,7 +8,13 @@ from typing import Any
 import click
 
 from parasite.cli import reports_input_errors
-from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, quiet_opt
+from parasite.cli.options import (
+    SpiceNumber,
+    frequency_opt,
+    min_coupling_opt,
+    quiet_opt,
+    scheduler_opt,
+)
 
 
 @click.command()
@@ -58,6 +64,7 @@ from parasite.cli.options import SpiceNumber, frequency_opt, min_coupling_opt, q
 @click.option("--broadband", is_flag=True,
               help="Copper as broadband R-L ladders (skin and proximity effect over 1 kHz-1 GHz), "
                    "as in 'parasite augment --broadband'.")
+@scheduler_opt
 @quiet_opt
 @reports_input_errors
 def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: str | None,
@@ -65,7 +72,8 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
          plot_path: str | None, fmt: str, output: str, band: float, capacitance: float | None,
          loop_name: str | None, probe: str | None, edge_rule: str, all_edges: bool,
          timeout: float,
-         min_coupling: float | None, frequency: float | None, broadband: bool, quiet: bool) -> None:
+         min_coupling: float | None, frequency: float | None, broadband: bool,
+         scheduler: str | None, quiet: bool) -> None:
     """Ringing at NODE: simulate NETLIST as written and with the copper of ROUTES,
     measure each switching edge (ring frequency and damping ratio from a damped
     sinusoid fitted after the first lobe, peak overshoot, settling time into a
@@ -80,6 +88,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
     from parasite.outputs import check_output_path, check_outputs, write_outputs
     from parasite.ring.analyse import analyse_ring
     from parasite.ring.report import format_ring_text, ring_json
+    from parasite.schedule import connected
 
     rule: str | int = edge_rule.strip().lower()
     if rule not in ("order", "last"):
@@ -99,6 +108,7 @@ def ring(netlist: str, routes: str, node: str, measured: str | None, time_unit: 
         except ValueError as exc:
             raise click.BadParameter(str(exc), param_hint="--plot") from None
     check_outputs([plot_path, output] if plot_path is not None else [output], inputs)
+    click.get_current_context().with_resource(connected(scheduler))  # before any work
     progress = None if quiet else _progress(tran_of(netlist))
     try:
         result = analyse_ring(

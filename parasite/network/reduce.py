@@ -43,15 +43,19 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import partial
+from typing import Any
 
 import numpy as np
 import scipy.linalg as sla
 import scipy.sparse as sp
 
 from parasite.network.solve import _spanning_forest, incidence, node_components
+from parasite.schedule import run_map
 
 DEFAULT_FMAX = 1e9  # Hz
 DEFAULT_TOLERANCE = 2e-3  # complex relative error of each entry of Z (0.2 %, 0.11 degree)
+THREADED_ORDER = 150  # unknowns from which the full solves run on a thread per core (bench_schedule.py)
 FLOOR = 1e-3  # entries below this fraction of sqrt(|Z_ii Z_jj|) are judged against that
 
 
@@ -231,17 +235,19 @@ class _KrylovPoint:
 
 def reduce_network(form: MeshForm, *, f_max: float = DEFAULT_FMAX,
                    tolerance: float = DEFAULT_TOLERANCE, max_order: int | None = None,
-                   points: tuple[float, ...] | None = None) -> ReducedModel:
+                   points: tuple[float, ...] | None = None,
+                   scheduler: str | Any | None = None) -> ReducedModel:
     """The smallest reduced model (in blocks) whose port impedance matrix is
     within ``tolerance`` of the full network's on :func:`frequency_grid` of
     ``f_max``, checked after every block. Expansion points, visited in turn,
     default to ``s0 = 0, inf, 2 pi f_max, 2 pi f_max / 100`` (rad/s); the first
-    block at ``s0 = 0`` makes the DC port resistance exact."""
+    block at ``s0 = 0`` makes the DC port resistance exact. The full network's
+    impedances run through :func:`full_port_impedance` (``scheduler``)."""
     P = form.T.shape[1]
     c = form.C.shape[1]
     freqs = frequency_grid(f_max)
     Rf, Lf = _project(form, None)
-    Zf = port_impedance(Rf, Lf, P, freqs)
+    Zf = _scheduled_impedance(Rf, Lf, P, freqs, scheduler)
     limit = c if max_order is None else min(c, max_order)
     if points is None:
         w = 2 * math.pi * f_max
@@ -275,7 +281,25 @@ def reduce_network(form: MeshForm, *, f_max: float = DEFAULT_FMAX,
     return model
 
 
-def full_port_impedance(form: MeshForm, freqs: np.ndarray) -> np.ndarray:
-    """Port impedance matrices (F, P, P) of the unreduced network (ohm)."""
+def _impedance_point(f: float, *, Rf: np.ndarray, Lf: np.ndarray, P: int) -> np.ndarray:
+    return port_impedance(Rf, Lf, P, np.array([f]))[0]
+
+
+def _scheduled_impedance(Rf: np.ndarray, Lf: np.ndarray, P: int, freqs: np.ndarray,
+                         scheduler: str | Any | None) -> np.ndarray:
+    """:func:`port_impedance`, each frequency an independent dense solve through
+    :func:`parasite.schedule.run_map` (in process on a thread per core, or on a Dask
+    cluster; one BLAS thread per point either way, so the same bytes). Below
+    THREADED_ORDER unknowns a point is too small to pay for a thread."""
+    task = partial(_impedance_point, Rf=Rf, Lf=Lf, P=P)
+    out = run_map(task, [float(f) for f in freqs], scheduler=scheduler,
+                  threads=Rf.shape[0] >= THREADED_ORDER)
+    return np.array(out, dtype=complex).reshape(len(freqs), P, P)
+
+
+def full_port_impedance(form: MeshForm, freqs: np.ndarray, *,
+                        scheduler: str | Any | None = None) -> np.ndarray:
+    """Port impedance matrices (F, P, P) of the unreduced network (ohm); the
+    frequency points scheduled as in :func:`_scheduled_impedance`."""
     Rf, Lf = _project(form, None)
-    return port_impedance(Rf, Lf, form.T.shape[1], freqs)
+    return _scheduled_impedance(Rf, Lf, form.T.shape[1], freqs, scheduler)
