@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -41,12 +41,42 @@ def format_k(k: float) -> str:
     return f"{k:.{K_DIGITS}e}"
 
 
+_P10 = np.array([10.0 ** n for n in range(23)])  # powers of ten exact in float64
+
+
+def round_written(x: np.ndarray, digits: int = K_DIGITS) -> np.ndarray:
+    """``float(f"{v:.{digits}e}")`` of every element (a number as written and read
+    back), vectorised. The mantissa ``a 10^n`` is formed in one rounded product
+    (error below 1e-5 of a unit for ``digits <= 10``) and rounded to an integer;
+    the value is that integer times or over an exact power of ten, one correctly
+    rounded operation, as the string's conversion is (IEEE 754). Elements near a
+    rounding tie, or whose power of ten is not exact, are formatted by Python."""
+    shape = np.shape(x)
+    x = np.asarray(x, dtype=float).ravel()
+    out = np.empty_like(x)
+    a = np.abs(x)
+    ok = np.isfinite(x) & (a > 0)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        n = digits - np.floor(np.log10(np.where(ok, a, 1.0))).astype(np.int64)
+        ok &= np.abs(n) <= 22
+        p10 = _P10[np.clip(np.abs(n), 0, 22)]
+        p = np.where(n >= 0, a * p10, a / p10)
+        m = np.rint(p)
+        ok &= (np.abs(p - np.floor(p) - 0.5) > 1e-4) & (m >= 10.0 ** digits) & (m < 10.0 ** (digits + 1))
+        val = np.where(n >= 0, m / p10, m * p10)
+    out[ok] = np.copysign(val[ok], x[ok])
+    rest = np.flatnonzero(~ok)
+    if len(rest):
+        out[rest] = [float(f"{v:.{digits}e}") for v in x[rest].tolist()]
+    return out.reshape(shape)
+
+
 def _round_k(k: np.ndarray) -> np.ndarray:
-    return np.array([float(format_k(x)) for x in k.tolist()])
+    return round_written(k)
 
 
 def _round_l(x: np.ndarray) -> np.ndarray:
-    return np.array([float(f"{v:.10e}") for v in x.tolist()])
+    return round_written(x)
 
 
 def smallest_eigenvalue(L: np.ndarray) -> float:
@@ -54,6 +84,39 @@ def smallest_eigenvalue(L: np.ndarray) -> float:
     if L.shape[0] == 0:
         return float("inf")
     return float(scipy.linalg.eigvalsh(L, subset_by_index=[0, 0])[0])
+
+
+def below(L: np.ndarray, bound: float) -> bool:
+    """Whether the smallest eigenvalue of the symmetric ``L`` is below ``bound``
+    (H): ``L - bound I`` has no Cholesky factor (O(N^3 / 3), no eigenvalues)."""
+    if L.shape[0] == 0:
+        return False
+    if not math.isfinite(bound):
+        return bound > 0
+    try:
+        scipy.linalg.cholesky(L - bound * np.eye(L.shape[0]), lower=True, check_finite=False)
+    except np.linalg.LinAlgError:
+        return True
+    return False
+
+
+def lowest_eigenvalue(L: np.ndarray) -> float:
+    """Smallest eigenvalue (H) of a symmetric matrix, by Lanczos iteration on
+    ``L^{-1}`` (one Cholesky factor; ARPACK through scipy, from a fixed start so
+    that runs repeat); the dense solver when ``L`` is small or not definite (then
+    the value is <= 0 and goes into an error message)."""
+    n = L.shape[0]
+    if n < 400:
+        return smallest_eigenvalue(L)
+    try:
+        c = scipy.linalg.cho_factor(L, lower=True, check_finite=False)
+    except np.linalg.LinAlgError:
+        return smallest_eigenvalue(L)
+    from scipy.sparse.linalg import LinearOperator, eigsh
+
+    op = LinearOperator((n, n), matvec=lambda v: scipy.linalg.cho_solve(c, v), dtype=float)
+    mu = eigsh(op, k=1, which="LA", v0=np.ones(n), tol=1e-12, return_eigenvectors=False)
+    return float(1.0 / mu[0])
 
 
 @dataclass(frozen=True)
@@ -64,9 +127,18 @@ class CouplingSelection:
     self_inductance: np.ndarray  # diagonal as written (H)
     method: str  # "threshold" or "threshold + diagonal compensation"
     note: str  # what the method changed, for the report
-    min_eigenvalue: float  # H, of the matrix exactly as written
     dropped: int  # pairs with a non-zero mutual term that are not written
     kept: int
+    lam: float | None = field(default=None, repr=False, compare=False)  # cache, see below
+
+    @property
+    def min_eigenvalue(self) -> float:
+        """Smallest eigenvalue (H) of the matrix exactly as written (computed on
+        first use: only the selection that is written needs it)."""
+        if self.lam is None:
+            object.__setattr__(self, "lam", smallest_eigenvalue(
+                written_matrix(self.self_inductance, self.i, self.j, self.k)))
+        return float(self.lam)
 
 
 def written_matrix(self_l: np.ndarray, i: np.ndarray, j: np.ndarray, k: np.ndarray) -> np.ndarray:
@@ -79,30 +151,37 @@ def written_matrix(self_l: np.ndarray, i: np.ndarray, j: np.ndarray, k: np.ndarr
     return Lw
 
 
-def choose_couplings(L: np.ndarray, min_coupling: float, *, margin: float = 1e-3) -> CouplingSelection:
+def choose_couplings(L: np.ndarray, min_coupling: float, *, margin: float = 1e-3,
+                     lam_full: float | None = None) -> CouplingSelection:
     """Keep couplings with |k| >= ``min_coupling``; guarantee a positive
-    definite written matrix (see the module docstring)."""
+    definite written matrix (see the module docstring). ``lam_full``: the
+    smallest eigenvalue of ``L`` if known (a threshold search asks for several
+    thresholds of one matrix). The written matrix is compared with ``margin``
+    times it by a Cholesky factorisation; its own smallest eigenvalue is computed
+    when first asked for (:attr:`CouplingSelection.min_eigenvalue`)."""
     n = L.shape[0]
     L = 0.5 * (L + L.T)
     diag = np.diag(L).copy()
     if n and (not np.all(np.isfinite(L)) or np.any(diag <= 0)):
         raise ExtractionError("the inductance matrix has a non-positive or non-finite self term")
-    lam_full = smallest_eigenvalue(L)
+    if lam_full is None:
+        lam_full = lowest_eigenvalue(L) if n else float("inf")
     if n and lam_full <= 0:
         raise ExtractionError(
             f"the extracted inductance matrix is not positive definite (smallest eigenvalue "
             f"{lam_full:.3e} H): overlapping copper of one net? check the warnings")
     d = np.sqrt(diag)
-    K = L / np.outer(d, d)
     iu, ju = np.triu_indices(n, 1)
-    kv = K[iu, ju]
+    kv = L[iu, ju] / (d[iu] * d[ju])
     keep = (np.abs(kv) >= min_coupling) & (kv != 0.0)
     nonzero = kv != 0.0
     i, j, k = iu[keep], ju[keep], _round_k(kv[keep])
     self_l = _round_l(diag)
-    lam = smallest_eigenvalue(written_matrix(self_l, i, j, k))
+    Lw = written_matrix(self_l, i, j, k)
+    lam = None
     method, note = "threshold", ""
-    if n and lam < margin * lam_full:
+    if n and below(Lw, margin * lam_full):
+        lam0 = smallest_eigenvalue(Lw)
         dropped = ~keep & nonzero
         add = np.zeros(n)
         np.add.at(add, iu[dropped], np.abs(L[iu[dropped], ju[dropped]]))
@@ -110,18 +189,18 @@ def choose_couplings(L: np.ndarray, min_coupling: float, *, margin: float = 1e-3
         new_diag = _round_l(diag + add)
         d2 = np.sqrt(new_diag)
         k = _round_k(L[i, j] / (d2[i] * d2[j]))
-        lam2 = smallest_eigenvalue(written_matrix(new_diag, i, j, k))
+        lam = smallest_eigenvalue(written_matrix(new_diag, i, j, k))
         method = "threshold + diagonal compensation"
-        note = (f"pruning at |k| < {min_coupling:g} left the smallest eigenvalue at {lam:.3e} H; "
+        note = (f"pruning at |k| < {min_coupling:g} left the smallest eigenvalue at {lam0:.3e} H; "
                 f"dropped mutual terms added to the self terms (Gershgorin), raising them by at most "
                 f"{100 * float(np.max(add / diag)):.2f}%")
-        self_l, lam = new_diag, lam2
+        self_l = new_diag
         if lam <= 0:  # cannot happen in exact arithmetic; rounding only
             raise ExtractionError(f"could not make the written inductance matrix positive definite "
                                   f"(smallest eigenvalue {lam:.3e} H)")
     return CouplingSelection(i=i, j=j, k=k, self_inductance=self_l, method=method, note=note,
-                             min_eigenvalue=lam, dropped=int(np.count_nonzero(~keep & nonzero)),
-                             kept=int(keep.sum()))
+                             dropped=int(np.count_nonzero(~keep & nonzero)),
+                             kept=int(keep.sum()), lam=lam)
 
 
 def lead_branches(graph: CopperGraph, branches: Sequence[Branch]) -> np.ndarray:
@@ -131,7 +210,7 @@ def lead_branches(graph: CopperGraph, branches: Sequence[Branch]) -> np.ndarray:
 
 
 def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
-                     margin: float = 1e-3) -> CouplingSelection:
+                     margin: float = 1e-3, lams: dict[str, float] | None = None) -> CouplingSelection:
     """Couplings to write: those of the circuit's branches chosen by
     :func:`choose_couplings` (threshold, diagonal
     compensation where needed), plus every non-zero coupling of a probe-lead
@@ -142,13 +221,20 @@ def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
     matrix's smallest eigenvalue falls below ``margin`` times the full
     matrix's, the circuit block is compensated on its diagonal (then
     ``Lw_cc >= L_cc``, so the Schur complement of the leads is at least that
-    of the exact matrix, which is positive)."""
+    of the exact matrix, which is positive). ``lams``: a dict in which the
+    smallest eigenvalues of ``Lb`` and of its circuit block are kept between
+    calls for several thresholds."""
+    lams = {} if lams is None else lams
     leads = np.asarray(leads, dtype=bool)
     if not leads.any():
-        return choose_couplings(Lb, min_coupling, margin=margin)
+        if "circuit" not in lams:
+            lams["circuit"] = lowest_eigenvalue(0.5 * (Lb + Lb.T)) if Lb.shape[0] else math.inf
+        return choose_couplings(Lb, min_coupling, margin=margin, lam_full=lams["circuit"])
     Lb = 0.5 * (Lb + Lb.T)
     circ = np.flatnonzero(~leads)
-    lam_full = smallest_eigenvalue(Lb)
+    if "all" not in lams:
+        lams["all"] = lowest_eigenvalue(Lb)
+    lam_full = lams["all"]
     if lam_full <= 0:
         raise ExtractionError(
             f"the extracted inductance matrix with the probe leads is not positive definite "
@@ -156,7 +242,7 @@ def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
 
     def combine(sub: CouplingSelection) -> CouplingSelection:
         n = Lb.shape[0]
-        self_l = np.array([float(f"{v:.10e}") for v in np.diag(Lb).tolist()])
+        self_l = _round_l(np.diag(Lb))
         self_l[circ] = sub.self_inductance
         iu, ju = np.triu_indices(n, 1)
         lead_pair = (leads[iu] | leads[ju]) & (Lb[iu, ju] != 0.0)
@@ -167,19 +253,24 @@ def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
         k = np.concatenate([sub.k, k_lead])
         order = np.lexsort((j, i))
         i, j, k = i[order], j[order], k[order]
-        lam = smallest_eigenvalue(written_matrix(self_l, i, j, k))
         n_lead = int(np.count_nonzero(lead_pair))
         return CouplingSelection(
             i=i, j=j, k=k, self_inductance=self_l, method=sub.method,
             note=(sub.note + ("; " if sub.note else "")
                   + f"{n_lead} couplings of probe leads written whatever their |k|"),
-            min_eigenvalue=lam, dropped=sub.dropped, kept=sub.kept + n_lead)
+            dropped=sub.dropped, kept=sub.kept + n_lead)
+
+    def written_of(sel: CouplingSelection) -> np.ndarray:
+        return written_matrix(sel.self_inductance, sel.i, sel.j, sel.k)
 
     Lcc = Lb[np.ix_(circ, circ)]
-    out = combine(choose_couplings(Lcc, min_coupling, margin=margin))
-    if out.min_eigenvalue < margin * lam_full:
-        out = combine(choose_couplings(Lcc, min_coupling, margin=math.inf))
-    if out.min_eigenvalue <= 0:
+    if "circuit" not in lams:
+        lams["circuit"] = lowest_eigenvalue(Lcc) if len(circ) else math.inf
+    out = combine(choose_couplings(Lcc, min_coupling, margin=margin, lam_full=lams["circuit"]))
+    if below(written_of(out), margin * lam_full):
+        out = combine(choose_couplings(Lcc, min_coupling, margin=math.inf,
+                                       lam_full=lams["circuit"]))
+    if below(written_of(out), 0.0):
         raise ExtractionError(
             f"could not write a positive definite inductance matrix with the probe leads "
             f"(smallest eigenvalue {out.min_eigenvalue:.3e} H)")

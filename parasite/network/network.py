@@ -24,7 +24,6 @@ from parasite.naming import NameAllocator
 from parasite.network.branches import Branch, branch_matrices, build_branches, conducting_segments
 from parasite.network.couplings import (
     CouplingSelection,
-    choose_couplings,
     lead_branches,
     select_couplings,
     written_matrix,
@@ -94,11 +93,11 @@ class Network:
 def _selector(Lb: np.ndarray, leads: np.ndarray) -> tuple[Any, Any]:
     """Memoised coupling selection per threshold, and the matrix it writes."""
     selections: dict[float, CouplingSelection] = {}
+    lams: dict[str, float] = {}  # smallest eigenvalues of the full matrix, found once
 
     def select(thr: float) -> CouplingSelection:
         if thr not in selections:
-            selections[thr] = (select_couplings(Lb, thr, leads) if leads.any()
-                               else choose_couplings(Lb, thr))
+            selections[thr] = select_couplings(Lb, thr, leads, lams=lams)
         return selections[thr]
 
     def written(thr: float) -> np.ndarray:

@@ -176,6 +176,7 @@ class ReducedModel:
     errors: np.ndarray = field(default_factory=lambda: np.zeros(0))  # per frequency
     min_eig_R: float = math.nan
     min_eig_L: float = math.nan
+    full_Z: np.ndarray | None = field(default=None, repr=False)  # (F, P, P) ohm, the full network's on freqs
 
     @property
     def n_ports(self) -> int:
@@ -274,7 +275,7 @@ def reduce_network(form: MeshForm, *, f_max: float = DEFAULT_FMAX,
     Rr, Lr = _project(form, Q)
     err = port_error(port_impedance(Rr, Lr, P, freqs), Zf)
     model = ReducedModel(form.port_nodes, form.reference_nodes, 0.5 * (Rr + Rr.T),
-                         0.5 * (Lr + Lr.T), Q.shape[1], c, f_max, tolerance, freqs, err)
+                         0.5 * (Lr + Lr.T), Q.shape[1], c, f_max, tolerance, freqs, err, full_Z=Zf)
     if Rr.size:
         model.min_eig_R = float(np.linalg.eigvalsh(model.R).min())
         model.min_eig_L = float(np.linalg.eigvalsh(model.L).min())
@@ -297,9 +298,16 @@ def _scheduled_impedance(Rf: np.ndarray, Lf: np.ndarray, P: int, freqs: np.ndarr
     return np.array(out, dtype=complex).reshape(len(freqs), P, P)
 
 
-def full_port_impedance(form: MeshForm, freqs: np.ndarray, *,
+def full_port_impedance(form: MeshForm, freqs: np.ndarray,
+                        model: ReducedModel | None = None, *,
                         scheduler: str | Any | None = None) -> np.ndarray:
-    """Port impedance matrices (F, P, P) of the unreduced network (ohm); the
-    frequency points scheduled as in :func:`_scheduled_impedance`."""
+    """Port impedance matrices (F, P, P) of the unreduced network (ohm); those
+    that ``model`` already holds when its frequencies are ``freqs`` (the full
+    network's solve is the costly part of a reduction: one dense factorisation
+    of the mesh matrix per frequency, done once); the others scheduled as in
+    :func:`_scheduled_impedance`."""
+    if (model is not None and model.full_Z is not None and len(model.freqs) == len(freqs)
+            and np.array_equal(model.freqs, freqs)):
+        return model.full_Z
     Rf, Lf = _project(form, None)
     return _scheduled_impedance(Rf, Lf, form.T.shape[1], freqs, scheduler)

@@ -38,7 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg as sla
 
-from parasite.network.couplings import format_k
+from parasite.network.couplings import format_k, round_written
 from parasite.network.reduce import ReducedModel, port_error, port_impedance
 
 ZERO_K = 1e-9  # |k| below this is not written
@@ -115,9 +115,9 @@ def realise(model: ReducedModel, full_Z: np.ndarray | None = None) -> Realisatio
     kk = Lp / (d[:, None] * d[None, :])
     np.fill_diagonal(kk, 0.0)
     kk = np.where(np.abs(kk) < ZERO_K, 0.0, kk)
-    kk = np.vectorize(lambda x: float(format_k(x)))(kk) if kk.size else kk
-    ind = np.array([float(_num(x)) for x in ind])
-    internal_R = np.array([float(_num(x * ind[P + m])) for m, x in enumerate(lam)])
+    kk = round_written(kk) if kk.size else kk
+    ind = round_written(ind)
+    internal_R = round_written(lam * ind[P:P + len(lam)])
     refs = model.reference_nodes
     pieces = [np.flatnonzero(refs == r) for r in dict.fromkeys(refs.tolist())]
     resistors: list[tuple[int, int, float]] = []

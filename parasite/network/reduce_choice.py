@@ -74,7 +74,7 @@ def reduce_for_netlist(network: Network, *, f_max: float = DEFAULT_FMAX,
     form = mesh_form(network.node_from, network.node_to, len(network.graph.nodes),
                      port_nodes(network), network.L, network.R)
     model = reduce_network(form, f_max=f_max, tolerance=tolerance)
-    real = realise(model, full_port_impedance(form, model.freqs))
+    real = realise(model, full_port_impedance(form, model.freqs, model))
     n_res = len(real.resistors) + len(real.internal_R)
     n_k = int((real.k != 0).sum()) // 2
     sel = network.selection
