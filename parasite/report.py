@@ -82,8 +82,8 @@ def build_report(network: Any, loops: list[dict[str, Any]],
         "min_coupling": min_coupling,
         "min_coupling_rule": threshold.rule if threshold is not None else "",
         "loop_errors_from_pruning": dict(threshold.loop_errors) if threshold is not None else {},
-        "passive": bool(selection is None or selection.min_eigenvalue > 0),
-        "min_eigenvalue": _num(selection.min_eigenvalue) if selection is not None else None,
+        "passive": None,  # of what is written: set_written_passivity
+        "min_eigenvalue": None,
         "sparsification": selection.method if selection is not None else None,
         "sparsification_note": selection.note if selection is not None else "",
         "frequency": extraction.frequency,
@@ -101,6 +101,22 @@ def build_report(network: Any, loops: list[dict[str, Any]],
         "warnings": list(graph.warnings),
         "caution": CAUTION,
     }
+
+
+def set_written_passivity(report: dict[str, Any], network: Any, reduction: Any = None) -> None:
+    """The summary's ``passive`` and ``min_eigenvalue`` (H): of the inductance matrix
+    as written, which is the reduced model's when ``reduction`` (a
+    :class:`parasite.network.reduce_choice.Reduction`) is written, else the full
+    model's coupling selection. Certified on what is written: after a reduction
+    that is a small matrix, and the full one's O(N^3) eigenvalue is not asked for."""
+    summary = report["summary"]
+    if reduction is not None:
+        summary["passive"] = bool(reduction.passive)
+        summary["min_eigenvalue"] = _num(reduction.realisation.min_eig_L)
+        return
+    selection = network.selection
+    summary["passive"] = bool(selection is None or selection.min_eigenvalue > 0)
+    summary["min_eigenvalue"] = _num(selection.min_eigenvalue) if selection is not None else None
 
 
 def report_json(report: dict[str, Any]) -> str:

@@ -12,6 +12,7 @@ import re
 import sys
 from pathlib import Path
 
+import numpy as np
 from click.testing import CliRunner
 
 from parasite.cli import main
@@ -98,3 +99,45 @@ def test_broadband_goes_with_the_full_model(tmp_path: Path) -> None:
     res = CliRunner().invoke(main, ["augment", str(cir), str(rt), "-o", str(bad),
                                     "--broadband", "--model", "reduced", "-q"])
     assert res.exit_code == 2 and not bad.exists()
+
+
+def _written_inductance(text: str) -> np.ndarray:
+    """The inductance matrix (H) that a netlist's L and K cards describe, read back
+    from the text (SPICE's K card: k = M / sqrt(L1 L2))."""
+    names: dict[str, int] = {}
+    values: list[float] = []
+    ks: list[tuple[str, str, float]] = []
+    for line in text.splitlines():
+        f = line.split()
+        if f and f[0][0] in "Ll" and len(f) >= 4:
+            names[f[0].lower()] = len(values)
+            values.append(float(f[3]))
+        elif f and f[0][0] in "Kk" and len(f) >= 4:
+            ks.append((f[1].lower(), f[2].lower(), float(f[3])))
+    d = np.array(values)
+    Lw = np.diag(d)
+    for a, b, k in ks:
+        i, j = names[a], names[b]
+        Lw[i, j] = Lw[j, i] = k * np.sqrt(d[i] * d[j])
+    return Lw
+
+
+def test_summary_passivity_is_of_what_is_written(tmp_path: Path) -> None:
+    """The summary's smallest eigenvalue is that of the inductance matrix the
+    written L and K cards describe, read back from the netlist and checked with
+    numpy's symmetric eigensolver (LAPACK): the reduced model's when it is written
+    (no eigenvalue of the unwritten full matrix is needed), the full model's
+    otherwise."""
+    routes, netlist = board(3, ladder=True)
+    (tmp_path / "b.cir").write_text(netlist + ".end\n")
+    (tmp_path / "b.routes.toml").write_text(routes)
+    for model in ("reduced", "full"):
+        out, rep = tmp_path / f"{model}.cir", tmp_path / f"{model}.json"
+        res = CliRunner().invoke(main, ["augment", str(tmp_path / "b.cir"),
+                                        str(tmp_path / "b.routes.toml"), "-o", str(out),
+                                        "--model", model, "--report", str(rep), "-q"])
+        assert res.exit_code == 0, res.output
+        summary = json.loads(rep.read_text())["summary"]
+        lam = float(np.linalg.eigvalsh(_written_inductance(out.read_text())).min())
+        assert summary["passive"] is True and lam > 0
+        assert abs(summary["min_eigenvalue"] - lam) <= 1e-6 * lam, (model, summary, lam)
