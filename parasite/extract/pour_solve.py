@@ -122,12 +122,43 @@ def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
                          shape=(nb, chords.size))
 
 
+def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+                    injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
+    """The particular solution ``i_p`` (N,) of Kirchhoff's current law ``A i = s`` for
+    the node injections ``s`` (A entering each node from outside; zero sum on every
+    connected piece) on a spanning forest, and the fundamental cycle matrix ``B``
+    (N, c), None without cycles (module docstring): every branch current that meets
+    the law is ``i_p + B m``."""
+    nb = len(node_from)
+    u = np.asarray(node_from, dtype=np.int64)
+    v = np.asarray(node_to, dtype=np.int64)
+    tree = _forest(u, v, n_nodes)
+    tb = np.flatnonzero(tree)
+    chords = np.flatnonzero(~tree)
+    A = sp.csc_matrix((np.concatenate([np.ones(nb), -np.ones(nb)]),
+                       (np.concatenate([u, v]), np.concatenate([np.arange(nb)] * 2))),
+                      shape=(n_nodes, nb))
+    # drop one node per component (its equation is the sum of the others)
+    comp = connected_components(sp.coo_matrix((np.ones(nb), (u, v)), shape=(n_nodes, n_nodes)),
+                                directed=False)[1]
+    keep = np.ones(n_nodes, dtype=bool)
+    keep[np.unique(comp, return_index=True)[1]] = False
+    A = A[np.flatnonzero(keep)]
+    i_p = np.zeros(nb)
+    lu = None
+    if tb.size:
+        lu = splu(A[:, tb].tocsc())
+        i_p[tb] = lu.solve(np.asarray(injection, dtype=float)[keep])
+    if chords.size == 0:
+        return i_p, None
+    return i_p, _cycles(lu, A, tb, chords, nb)
+
+
 def port_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, plus: NodeSet,
                minus: NodeSet, shorts: Sequence[NodeSet] = ()
                ) -> tuple[np.ndarray, sp.csc_matrix | None]:
-    """The particular solution ``i_p`` (N,) of Kirchhoff's current law for 1 A from
-    ``plus`` to ``minus`` and the fundamental cycle matrix ``B`` (N, c), None without
-    cycles (module docstring): every branch current is ``i_p + B m``."""
+    """:func:`injection_basis` for 1 A from ``plus`` to ``minus`` (node sets, each
+    shorted together, as are ``shorts``)."""
     nb = len(node_from)
     plus_a = np.atleast_1d(np.asarray(plus, dtype=np.int64))
     minus_a = np.atleast_1d(np.asarray(minus, dtype=np.int64))
@@ -141,26 +172,31 @@ def port_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, plus: N
                                 directed=False)[1]
     if comp[p] != comp[m]:
         raise ExtractionError("no copper joins the port's two contacts", key="ports")
-
-    tree = _forest(u, v, n)
-    tb = np.flatnonzero(tree)
-    chords = np.flatnonzero(~tree)
-    A = sp.csc_matrix((np.concatenate([np.ones(nb), -np.ones(nb)]),
-                       (np.concatenate([u, v]), np.concatenate([np.arange(nb)] * 2))),
-                      shape=(n, nb))
-    # drop one node per component (its equation is the sum of the others)
-    roots = np.unique(comp, return_index=True)[1]
-    keep = np.ones(n, dtype=bool)
-    keep[roots] = False
-    A = A[np.flatnonzero(keep)]
     s = np.zeros(n)
     s[p], s[m] = 1.0, -1.0
-    lu = splu(A[:, tb].tocsc())
-    i_p = np.zeros(nb)
-    i_p[tb] = lu.solve(s[keep])
-    if chords.size == 0:
-        return i_p, None
-    return i_p, _cycles(lu, A, tb, chords, nb)
+    return injection_basis(u, v, n, s)
+
+
+def cycle_currents(i_p: np.ndarray, B: sp.csc_matrix | None, L: np.ndarray, R: np.ndarray,
+                   omega: float) -> np.ndarray:
+    """Branch currents ``i_p + B m`` (A) with the mesh currents ``m`` from Kirchhoff's
+    voltage law ``B^T Z (i_p + B m) = 0``, ``Z = diag(R) + j omega L`` (real at
+    ``omega`` = 0 rad/s: the resistive division). ``L`` (N, N) H, ``R`` (N,) ohm."""
+    if B is None:
+        return i_p.astype(complex) if omega > 0 else i_p
+    BtR = (B.T @ sp.diags(R)).tocsr()
+    rhs_r = BtR @ i_p
+    if omega == 0.0:
+        return np.asarray(i_p + B @ splu((BtR @ B).tocsc()).solve(-rhs_r))
+    BtL = np.asarray(B.T @ L)  # (c, N) dense, sparse x dense
+    rhs = rhs_r + 1j * omega * (BtL @ i_p)
+    mesh = np.asarray((B.T @ BtL.T).T).astype(complex)  # B^T L B, symmetric
+    del BtL
+    mesh *= 1j * omega
+    mesh += (BtR @ B).toarray()
+    # numpy's LU: on the project's machine 4-7 times faster than scipy.linalg's
+    # LU or its symmetric LDL^T (measured at c = 1500)
+    return np.asarray(i_p + B @ np.linalg.solve(mesh, -rhs))
 
 
 def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.ndarray,
@@ -180,23 +216,7 @@ def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.n
                               key="segments")
     i_p, B = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
     omega = 2.0 * math.pi * frequency
-    if B is None:
-        i = i_p.astype(complex) if omega > 0 else i_p
-    else:
-        BtR = (B.T @ sp.diags(R)).tocsr()
-        rhs_r = BtR @ i_p
-        if omega == 0.0:
-            i = i_p + B @ splu((BtR @ B).tocsc()).solve(-rhs_r)
-        else:
-            BtL = np.asarray(B.T @ L)  # (c, N) dense, sparse x dense
-            rhs = rhs_r + 1j * omega * (BtL @ i_p)
-            mesh = np.asarray((B.T @ BtL.T).T).astype(complex)  # B^T L B, symmetric
-            del BtL
-            mesh *= 1j * omega
-            mesh += (BtR @ B).toarray()
-            # numpy's LU: on the project's machine 4-7 times faster than scipy.linalg's
-            # LU or its symmetric LDL^T (measured at c = 1500)
-            i = i_p + B @ np.linalg.solve(mesh, -rhs)
+    i = cycle_currents(i_p, B, L, R, omega)
     Li = L @ i
     if omega > 0:
         z = complex(np.sum(np.conj(i) * (R * i + 1j * omega * Li)))

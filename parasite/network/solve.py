@@ -22,9 +22,9 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import minimum_spanning_tree
-from scipy.sparse.linalg import splu
 
 from geometry.components import component_roots
+from parasite.extract.pour_solve import cycle_currents, injection_basis
 
 
 def incidence(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> sp.csc_matrix:
@@ -78,55 +78,15 @@ def branch_currents(
     ``node_from[k] -> node_to[k]`` with resistance ``R[k]`` (ohm) and partial
     inductances ``L[k, :]`` (H). At ``omega > 0`` (rad/s) the currents are
     complex phasors; at ``omega == 0`` they are the real low-frequency-limit
-    division (resistive). Kirchhoff's laws on a spanning tree and its
-    fundamental cycles; sparse LU (scipy.sparse.linalg.splu) for the tree.
+    division (resistive). Kirchhoff's laws on a spanning forest and its
+    fundamental cycles, the same solve as a pour's port
+    (:func:`parasite.extract.pour_solve.injection_basis`, ``cycle_currents``).
     """
-    node_from = np.asarray(node_from, dtype=np.int64)
-    node_to = np.asarray(node_to, dtype=np.int64)
-    n = len(node_from)
-    if n == 0:
+    if len(node_from) == 0:
         return np.zeros(0)
-    labels = node_components(node_from, node_to, n_nodes)
-    _, roots = np.unique(labels, return_index=True)
-    keep = np.ones(n_nodes, dtype=bool)
-    keep[roots] = False
-
-    tree = _spanning_forest(node_from, node_to, n_nodes)
-    chords = np.flatnonzero(~tree)
-    A = incidence(node_from, node_to, n_nodes)[np.flatnonzero(keep)]
-    A_tree = A[:, np.flatnonzero(tree)].tocsc()
-    x = np.asarray(injection, dtype=float)[keep]
-
-    i_p = np.zeros(n)
-    if A_tree.shape[0]:
-        lu = splu(A_tree)
-        i_p[tree] = lu.solve(x)
-    if len(chords) == 0:
-        return i_p
-    # Fundamental cycles: chord k plus the tree branches that close it. The
-    # entries are 0, +1 or -1 (a tree path); rounding makes them exact, and the
-    # sparse form keeps the products below at nnz(B) * n instead of n^2 * c.
-    c = len(chords)
-    rows = [chords]
-    cols = [np.arange(c)]
-    vals = [np.ones(c)]
-    if A_tree.shape[0]:
-        path = -np.rint(lu.solve(A[:, chords].toarray()))
-        r, k = np.nonzero(path)
-        rows.append(np.flatnonzero(tree)[r])
-        cols.append(k)
-        vals.append(path[r, k])
-    B = sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                      shape=(n, c))
-    BtR = (B.T @ sp.diags(R)).tocsr()
-    mesh_r = (BtR @ B).toarray()
-    rhs_r = BtR @ i_p
-    if omega == 0.0:
-        return np.asarray(i_p + B @ np.linalg.solve(mesh_r, -rhs_r))
-    BtL = np.asarray(B.T @ L)  # (c, n) dense
-    mesh = mesh_r + 1j * omega * np.asarray((B.T @ BtL.T).T)
-    rhs = rhs_r + 1j * omega * (BtL @ i_p)
-    return np.asarray(i_p + B @ np.linalg.solve(mesh, -rhs))
+    i_p, B = injection_basis(node_from, node_to, n_nodes, injection)
+    return cycle_currents(i_p, B, np.asarray(L, dtype=float), np.asarray(R, dtype=float),
+                          omega)
 
 
 @dataclass(frozen=True)
