@@ -73,7 +73,7 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
     ``model`` ``auto``, ``full`` or ``reduced`` (:mod:`parasite.network.reduce_choice`;
     the ladders are written per branch, so ``broadband`` goes with the full model)."""
     from parasite.network.reduce_choice import choose_model, reduction_report
-    from parasite.report import set_written_passivity
+    from parasite.report import set_written_summary
     from parasite.writer import initial_current_warnings, write_netlist
 
     network = build_network(extraction, options)
@@ -93,7 +93,7 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
     else:
         chosen, reduction, why = choose_model(network, model)
     report["model"] = reduction_report(chosen, reduction, why)
-    set_written_passivity(report, network, reduction if chosen == "reduced" else None)
+    set_written_summary(report, network, reduction if chosen == "reduced" else None)
     written = write_netlist(network, ladders, reduction if chosen == "reduced" else None)
     return AugmentResult(written.netlist_bytes, report, network.node_names, network.branches,
                          written.inductor_names, network)

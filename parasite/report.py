@@ -23,21 +23,18 @@ def _num(x: float) -> float | None:
     return x if math.isfinite(x) else None
 
 
-def segment_couplings(L: np.ndarray, min_coupling: float,
-                      block: int = 2048) -> list[tuple[int, int, float, float]]:
+def segment_couplings(L: np.ndarray, min_coupling: float) -> list[tuple[int, int, float, float]]:
     """Segment pairs (i < j) with |k| >= ``min_coupling``: (i, j, mutual H, k),
     computed in row blocks so that no second N x N array is made."""
-    n = L.shape[0]
-    d = np.sqrt(np.diag(L))
+    from parasite.network.couplings import coupling_blocks
+
     out: list[tuple[int, int, float, float]] = []
-    for r0 in range(0, n, block):
-        r1 = min(n, r0 + block)
-        k = L[r0:r1] / np.outer(d[r0:r1], d)
+    for r0, k in coupling_blocks(L):
         rows, cols = np.nonzero(np.abs(k) >= min_coupling)
         sel = cols > rows + r0
         rows, cols = rows[sel], cols[sel]
-        for a, b in zip((rows + r0).tolist(), cols.tolist(), strict=True):
-            out.append((a, b, float(L[a, b]), float(L[a, b] / (d[a] * d[b]))))
+        out += zip((rows + r0).tolist(), cols.tolist(), L[rows + r0, cols].tolist(),
+                   k[rows, cols].tolist(), strict=True)
     return out
 
 
@@ -57,8 +54,6 @@ def build_report(network: Any, loops: list[dict[str, Any]],
     inputs = extraction.inputs
     graph = inputs.graph
     L, R = extraction.L, extraction.R
-    selection, threshold = network.selection, network.threshold
-    min_coupling = network.min_coupling
     names = node_labels(network)
     segments = []
     for s in graph.segments:
@@ -69,23 +64,19 @@ def build_report(network: Any, loops: list[dict[str, Any]],
             "inductance": _num(L[s.index, s.index]), "resistance": _num(R[s.index]),
             "source": s.source, "name": s.name,
         })
-    couplings = [
-        {"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
-        for i, j, m, k in segment_couplings(L, max(min_coupling, 1e-12))
-    ] if len(L) else []
-    n_br = len(network.branches)
     summary: dict[str, Any] = {
         "segments": len(graph.segments),
-        "branches": n_br,
-        "couplings_written": int(selection.kept) if selection is not None else 0,
-        "couplings_dropped": int(selection.dropped) if selection is not None else 0,
-        "min_coupling": min_coupling,
-        "min_coupling_rule": threshold.rule if threshold is not None else "",
-        "loop_errors_from_pruning": dict(threshold.loop_errors) if threshold is not None else {},
-        "passive": None,  # of what is written: set_written_passivity
+        "branches": len(network.branches),
+        # what is written: set_written_summary, once the model is chosen
+        "couplings_written": 0,
+        "couplings_dropped": 0,
+        "min_coupling": network.min_coupling if network.chosen is not None else None,
+        "min_coupling_rule": "",
+        "loop_errors_from_pruning": {},
+        "passive": None,
         "min_eigenvalue": None,
-        "sparsification": selection.method if selection is not None else None,
-        "sparsification_note": selection.note if selection is not None else "",
+        "sparsification": None,
+        "sparsification_note": "",
         "frequency": extraction.frequency,
         "loops_over_limit": sum(1 for lp in loops if lp.get("within_limit") is False),
     }
@@ -94,7 +85,7 @@ def build_report(network: Any, loops: list[dict[str, Any]],
         "netlist": inputs.netlist_path,
         "routes": inputs.routes_path,
         "segments": segments,
-        "couplings": couplings,
+        "couplings": [],
         "loops": loops,
         "probes": probe_entries,
         "summary": summary,
@@ -103,20 +94,47 @@ def build_report(network: Any, loops: list[dict[str, Any]],
     }
 
 
-def set_written_passivity(report: dict[str, Any], network: Any, reduction: Any = None) -> None:
-    """The summary's ``passive`` and ``min_eigenvalue`` (H): of the inductance matrix
-    as written, which is the reduced model's when ``reduction`` (a
+def set_written_summary(report: dict[str, Any], network: Any, reduction: Any = None) -> None:
+    """The report's couplings and the summary's figures of what is written: the
+    reduced model's when ``reduction`` (a
     :class:`parasite.network.reduce_choice.Reduction`) is written, else the full
-    model's coupling selection. Certified on what is written: after a reduction
-    that is a small matrix, and the full one's O(N^3) eigenvalue is not asked for."""
+    model's coupling selection. Passivity is certified on what is written: after a
+    reduction that is a small matrix, and neither the full matrix's O(N^3)
+    eigenvalue nor its coupling threshold search is run. ``couplings`` lists the
+    segment pairs with |k| at or above the full model's threshold, or the fixed
+    :data:`parasite.network.threshold.FALLBACK` when the reduced model is written."""
+    from parasite.network.threshold import FALLBACK
+
     summary = report["summary"]
+    graph, L = network.graph, network.extraction.L
     if reduction is not None:
-        summary["passive"] = bool(reduction.passive)
-        summary["min_eigenvalue"] = _num(reduction.realisation.min_eig_L)
-        return
-    selection = network.selection
-    summary["passive"] = bool(selection is None or selection.min_eigenvalue > 0)
-    summary["min_eigenvalue"] = _num(selection.min_eigenvalue) if selection is not None else None
+        r = reduction.realisation
+        summary.update({
+            "couplings_written": int((r.k != 0).sum()) // 2, "couplings_dropped": 0,
+            "min_coupling": 0.0,
+            "min_coupling_rule": "reduced model: every coupling of its inductors is written",
+            "passive": bool(reduction.passive), "min_eigenvalue": _num(r.min_eig_L),
+        })
+        listed = FALLBACK
+    else:
+        selection, threshold = network.selection, network.threshold
+        summary.update({
+            "couplings_written": int(selection.kept) if selection is not None else 0,
+            "couplings_dropped": int(selection.dropped) if selection is not None else 0,
+            "min_coupling": network.min_coupling,
+            "min_coupling_rule": threshold.rule if threshold is not None else "",
+            "loop_errors_from_pruning": (dict(threshold.loop_errors) if threshold is not None
+                                         else {}),
+            "passive": bool(selection is None or selection.min_eigenvalue > 0),
+            "min_eigenvalue": _num(selection.min_eigenvalue) if selection is not None else None,
+            "sparsification": selection.method if selection is not None else None,
+            "sparsification_note": selection.note if selection is not None else "",
+        })
+        listed = network.min_coupling
+    report["couplings"] = [
+        {"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
+        for i, j, m, k in segment_couplings(L, max(listed, 1e-12))
+    ] if len(L) else []
 
 
 def report_json(report: dict[str, Any]) -> str:

@@ -20,7 +20,7 @@ loop inductances come out slightly high, never low).
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
@@ -139,6 +139,17 @@ class CouplingSelection:
             object.__setattr__(self, "lam", smallest_eigenvalue(
                 written_matrix(self.self_inductance, self.i, self.j, self.k)))
         return float(self.lam)
+
+
+def coupling_blocks(L: np.ndarray, rows: int = 2048) -> Iterator[tuple[int, np.ndarray]]:
+    """``(r0, k)`` over row blocks of the coupling coefficients
+    ``k_ij = L_ij / sqrt(L_ii L_jj)`` (rows ``r0`` to ``r0 + len(k)``, all columns;
+    the diagonal is 1): no second N x N array is made."""
+    n = L.shape[0]
+    d = np.sqrt(np.diag(L))
+    for r0 in range(0, n, rows):
+        r1 = min(n, r0 + rows)
+        yield r0, L[r0:r1] / (d[r0:r1, None] * d[None, :])
 
 
 def written_matrix(self_l: np.ndarray, i: np.ndarray, j: np.ndarray, k: np.ndarray) -> np.ndarray:

@@ -14,6 +14,7 @@ none of them reaches into another. SI units throughout.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -57,8 +58,28 @@ class Network:
     branches: list[Branch] = field(default_factory=list)
     L: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))  # (B, B) H, branch matrix
     R: np.ndarray = field(default_factory=lambda: np.zeros(0))  # (B,) ohm
-    selection: CouplingSelection | None = None  # the couplings as written
-    threshold: ThresholdChoice | None = None  # how the threshold was chosen (None: no copper)
+    chosen: ThresholdChoice | None = None  # the threshold, when known without a search
+    search: Callable[[], ThresholdChoice] | None = field(default=None, repr=False,
+                                                         compare=False)
+    select: Callable[[float], CouplingSelection] | None = field(default=None, repr=False,
+                                                                compare=False)
+
+    @property
+    def threshold(self) -> ThresholdChoice | None:
+        """How the coupling threshold was chosen (None: no copper). The per-board search
+        runs when first asked for: a board whose reduced model is written never needs
+        the full model's couplings."""
+        if self.chosen is None and self.search is not None:
+            object.__setattr__(self, "chosen", self.search())
+        return self.chosen
+
+    @property
+    def selection(self) -> CouplingSelection | None:
+        """The couplings of the full model as written (computed when first asked for)."""
+        choice = self.threshold
+        if choice is None or self.select is None:
+            return None
+        return self.select(choice.min_coupling)
 
     @property
     def min_coupling(self) -> float:
@@ -126,14 +147,17 @@ def build_network(extraction: Extraction, options: NetworkOptions | None = None)
     reserved, kept = allocator.taken(), frozenset(keep)
     if not branches:
         return Network(extraction, options, names, reserved, kept, mask, branches,
-                       threshold=ThresholdChoice(FALLBACK if given is None else given,
-                                                 "no copper carries current", {}))
+                       chosen=ThresholdChoice(FALLBACK if given is None else given,
+                                              "no copper carries current", {}))
     Lb, Rb = branch_matrices(branches, extraction.L, extraction.R)
     select, written = _selector(Lb, lead_branches(graph, branches))
+
+    def search() -> ThresholdChoice:
+        return choose_threshold(graph, inputs.netlist, branches, Lb, Rb, written,
+                                tolerance=options.loop_tolerance)
+
     if given is None:
-        choice = choose_threshold(graph, inputs.netlist, branches, Lb, Rb, written,
-                                  tolerance=options.loop_tolerance)
-    else:
-        choice = ThresholdChoice(given, "given (--min-coupling)", {})
+        return Network(extraction, options, names, reserved, kept, mask, branches, Lb, Rb,
+                       search=search, select=select)
     return Network(extraction, options, names, reserved, kept, mask, branches, Lb, Rb,
-                   selection=select(choice.min_coupling), threshold=choice)
+                   chosen=ThresholdChoice(given, "given (--min-coupling)", {}), select=select)

@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from parasite.errors import ExtractionError
+from parasite.network.couplings import coupling_blocks
 from parasite.network.ports import probe_nodes
 from parasite.network.reduce import (
     DEFAULT_FMAX,
@@ -33,6 +34,7 @@ from parasite.network.reduce import (
     reduce_network,
 )
 from parasite.network.reduce_cards import Realisation, realise
+from parasite.network.threshold import CANDIDATES
 
 if TYPE_CHECKING:
     from parasite.network import Network
@@ -47,6 +49,7 @@ class Reduction:
     realisation: Realisation
     full_size: int  # inductors + coupling statements of the full model as written
     reduced_size: int  # inductors + coupling statements + resistors of the reduced model
+    full_exact: bool = True  # False: full_size is a lower bound (no threshold search run)
 
     @property
     def passive(self) -> bool:
@@ -77,9 +80,33 @@ def reduce_for_netlist(network: Network, *, f_max: float = DEFAULT_FMAX,
     real = realise(model, full_port_impedance(form, model.freqs, model))
     n_res = len(real.resistors) + len(real.internal_R)
     n_k = int((real.k != 0).sum()) // 2
+    red = Reduction(model, real, 0, len(real.inductances) + n_k + n_res)
+    if network.chosen is not None:  # the full model's couplings are known: count them
+        red.full_size = full_model_size(network)
+    else:  # no search yet: the fewest elements any threshold of the search writes
+        red.full_size = len(network.branches) + strong_pairs(network.L, CANDIDATES[0])
+        red.full_exact = False
+    return red
+
+
+def full_model_size(network: Network) -> int:
+    """Inductors and coupling statements of the full model as written (runs the
+    network's threshold search if it has not run)."""
     sel = network.selection
-    full = len(network.branches) + (int(sel.kept) if sel is not None else 0)
-    return Reduction(model, real, full, len(real.inductances) + n_k + n_res)
+    return len(network.branches) + (int(sel.kept) if sel is not None else 0)
+
+
+def strong_pairs(L: np.ndarray, k_min: float) -> int:
+    """Number of pairs ``i < j`` with ``|L_ij| / sqrt(L_ii L_jj) >= k_min`` (> 0).
+    Every threshold of :data:`parasite.network.threshold.CANDIDATES` keeps at least
+    the pairs of its largest, so with ``k_min`` that one this bounds the full model's
+    coupling count from below."""
+    count = 0
+    for r0, k in coupling_blocks(L):
+        k = np.abs(k)
+        k[np.arange(len(k)), np.arange(r0, r0 + len(k))] = 0.0
+        count += int(np.count_nonzero((k >= k_min) & (k > 0)))
+    return count // 2
 
 
 def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAULT_FMAX,
@@ -102,6 +129,12 @@ def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAUL
         return "reduced", red, "given (--model reduced)"
     if not red.acceptable:
         return "full", red, "the reduced model missed the tolerance or the passivity check"
+    if not red.full_exact and red.reduced_size <= AUTO_RATIO * red.full_size:
+        return "reduced", red, (f"smaller: {red.reduced_size} elements against at least "
+                                f"{red.full_size} (inductors, couplings, resistors; the "
+                                f"full model's coupling threshold was not searched)")
+    if not red.full_exact:
+        red.full_size, red.full_exact = full_model_size(network), True
     if red.reduced_size <= AUTO_RATIO * red.full_size:
         return "reduced", red, (f"smaller: {red.reduced_size} elements against "
                                 f"{red.full_size} (inductors, couplings, resistors)")
@@ -133,6 +166,7 @@ def reduction_report(chosen: str, red: Reduction | None, why: str) -> dict[str, 
                       "min_eigenvalue_L_as_written": fin(r.min_eig_L),
                       "min_eigenvalue_G_as_written": fin(r.min_eig_G),
                       "passive": bool(red.passive)},
-        "size": {"full": red.full_size, "reduced": red.reduced_size},
+        "size": {"full": red.full_size, "full_exact": red.full_exact,
+                 "reduced": red.reduced_size},
     })
     return out

@@ -141,3 +141,39 @@ def test_summary_passivity_is_of_what_is_written(tmp_path: Path) -> None:
         lam = float(np.linalg.eigvalsh(_written_inductance(out.read_text())).min())
         assert summary["passive"] is True and lam > 0
         assert abs(summary["min_eigenvalue"] - lam) <= 1e-6 * lam, (model, summary, lam)
+
+
+def test_reduced_model_written_without_the_full_models_threshold_search(tmp_path: Path) -> None:
+    """When auto writes the reduced model because it is under half the size of
+    the fewest elements any threshold of the search would write, the full model's
+    per-board threshold search (loop solves and factorisations per candidate) never
+    runs; the bound is a true lower bound of the full model's size once the search
+    is run, and the decision is the one the exact size gives."""
+    from parasite.augment import augment
+    from parasite.network.reduce_choice import AUTO_RATIO, full_model_size
+    from parasite.pipeline import extract, inputs_from_text
+
+    routes, netlist = board(3, ladder=True)
+    result = augment(extract(inputs_from_text(netlist + ".end\n", routes)))
+    network, model = result.network, result.report["model"]
+    assert network is not None and model["written"] == "reduced"
+    assert network.chosen is None and not model["size"]["full_exact"]
+    bound = model["size"]["full"]
+    exact = full_model_size(network)  # runs the search now
+    assert network.chosen is not None
+    assert bound <= exact and model["size"]["reduced"] <= AUTO_RATIO * exact
+
+
+def test_strong_pairs_counts_like_a_plain_count() -> None:
+    """The blocked count of |k| >= k_min against numpy's upper-triangle count on a
+    random symmetric positive definite matrix (common practice)."""
+    from parasite.network.reduce_choice import strong_pairs
+
+    rng = np.random.default_rng(3)
+    a = rng.normal(size=(2600, 40))
+    L = a @ a.T + 40 * np.eye(2600)
+    d = np.sqrt(np.diag(L))
+    k = L / np.outer(d, d)
+    iu = np.triu_indices(2600, 1)
+    for k_min in (0.05, 0.2, 0.5):
+        assert strong_pairs(L, k_min) == int(np.count_nonzero(np.abs(k[iu]) >= k_min))
