@@ -55,7 +55,6 @@ from parasite.schedule import run_map
 
 DEFAULT_FMAX = 1e9  # Hz
 DEFAULT_TOLERANCE = 2e-3  # complex relative error of each entry of Z (0.2 %, 0.11 degree)
-THREADED_ORDER = 150  # unknowns from which the full solves run on a thread per core (bench_schedule.py)
 FLOOR = 1e-3  # entries below this fraction of sqrt(|Z_ii Z_jj|) are judged against that
 
 
@@ -282,19 +281,48 @@ def reduce_network(form: MeshForm, *, f_max: float = DEFAULT_FMAX,
     return model
 
 
-def _impedance_point(f: float, *, Rf: np.ndarray, Lf: np.ndarray, P: int) -> np.ndarray:
-    return port_impedance(Rf, Lf, P, np.array([f]))[0]
+@dataclass(frozen=True)
+class ModalMesh:
+    """The mesh block of ``W^T (R + sL) W`` in modal coordinates: with
+    ``V^T L_mm V = I`` and ``V^T R_mm V = diag(lam)`` (the generalized symmetric
+    eigenproblem ``R_mm v = lam L_mm v``, both matrices positive definite; LAPACK's
+    sygvd through :func:`scipy.linalg.eigh`), ``(R_mm + s L_mm)^{-1} =
+    V diag(1 / (lam + s)) V^T``, so the port impedance at any frequency is
+    ``Z_uu(s) - (A + sB)^T diag(1 / (lam + s)) (A + sB)`` with ``A = V^T R_mu``,
+    ``B = V^T L_mu``: one O(n^3) decomposition for the whole frequency grid
+    instead of a complex factorisation per frequency (the modal form of an R-L
+    network, e.g. Desoer & Kuh, *Basic Circuit Theory*, 1969, ch. 13)."""
+
+    Ruu: np.ndarray  # (P, P) ohm
+    Luu: np.ndarray  # (P, P) H
+    A: np.ndarray  # (n, P)
+    B: np.ndarray  # (n, P)
+    lam: np.ndarray  # (n,) rad/s
+
+
+def modal_mesh(Rf: np.ndarray, Lf: np.ndarray, P: int) -> ModalMesh:
+    """:class:`ModalMesh` of the full ``[u; m]`` matrices ``Rf``, ``Lf`` with ``P`` ports."""
+    lam, V = sla.eigh(Rf[P:, P:], Lf[P:, P:], check_finite=False)
+    return ModalMesh(Rf[:P, :P], Lf[:P, :P], V.T @ Rf[P:, :P], V.T @ Lf[P:, :P], lam)
+
+
+def _impedance_point(f: float, *, modes: ModalMesh) -> np.ndarray:
+    s = 2j * math.pi * f
+    Zmu = modes.A + s * modes.B
+    return np.asarray(modes.Ruu + s * modes.Luu - Zmu.T @ (Zmu / (modes.lam + s)[:, None]))
 
 
 def _scheduled_impedance(Rf: np.ndarray, Lf: np.ndarray, P: int, freqs: np.ndarray,
                          scheduler: str | Any | None) -> np.ndarray:
-    """:func:`port_impedance`, each frequency an independent dense solve through
-    :func:`parasite.schedule.run_map` (in process on a thread per core, or on a Dask
-    cluster; one BLAS thread per point either way, so the same bytes). Below
-    THREADED_ORDER unknowns a point is too small to pay for a thread."""
-    task = partial(_impedance_point, Rf=Rf, Lf=Lf, P=P)
-    out = run_map(task, [float(f) for f in freqs], scheduler=scheduler,
-                  threads=Rf.shape[0] >= THREADED_ORDER)
+    """Port impedance matrices (F, P, P) of the full ``[u; m]`` matrices: the modal
+    decomposition (:class:`ModalMesh`) once, then each frequency a small product
+    through :func:`parasite.schedule.run_map` (in process, or on a Dask cluster; one
+    BLAS thread per point either way, so the same bytes)."""
+    if Rf.shape[0] == P:
+        return port_impedance(Rf, Lf, P, freqs)
+    modes = modal_mesh(Rf, Lf, P)
+    task = partial(_impedance_point, modes=modes)
+    out = run_map(task, [float(f) for f in freqs], scheduler=scheduler)
     return np.array(out, dtype=complex).reshape(len(freqs), P, P)
 
 
@@ -303,9 +331,8 @@ def full_port_impedance(form: MeshForm, freqs: np.ndarray,
                         scheduler: str | Any | None = None) -> np.ndarray:
     """Port impedance matrices (F, P, P) of the unreduced network (ohm); those
     that ``model`` already holds when its frequencies are ``freqs`` (the full
-    network's solve is the costly part of a reduction: one dense factorisation
-    of the mesh matrix per frequency, done once); the others scheduled as in
-    :func:`_scheduled_impedance`."""
+    network's modal decomposition is the costly part of a reduction: done once);
+    the others as in :func:`_scheduled_impedance`."""
     if (model is not None and model.full_Z is not None and len(model.freqs) == len(freqs)
             and np.array_equal(model.freqs, freqs)):
         return model.full_Z
