@@ -29,8 +29,9 @@ def port_sweep(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.n
                R: np.ndarray, frequencies: Sequence[float], plus: NodeSet, minus: NodeSet,
                shorts: Sequence[NodeSet] = (), *,
                scheduler: str | Any | None = None) -> list[PortSolution]:
-    """:func:`solve_port` at every frequency (Hz), in the order given."""
+    """:func:`solve_port` at every frequency (Hz), in the order given; in process on a
+    thread per core (numpy's dense solves release the interpreter lock)."""
     task = partial(_point, node_from=np.asarray(node_from), node_to=np.asarray(node_to),
                    n_nodes=int(n_nodes), L=np.asarray(L, dtype=float),
                    R=np.asarray(R, dtype=float), plus=plus, minus=minus, shorts=tuple(shorts))
-    return run_map(task, [float(f) for f in frequencies], scheduler=scheduler)
+    return run_map(task, [float(f) for f in frequencies], scheduler=scheduler, threads=True)
