@@ -72,6 +72,7 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
     ``broadband`` every branch is a fitted R-L ladder (:mod:`parasite.network.ladders`);
     ``model`` ``auto``, ``full`` or ``reduced`` (:mod:`parasite.network.reduce_choice`;
     the ladders are written per branch, so ``broadband`` goes with the full model)."""
+    from parasite.network.reduce import DEFAULT_FMAX
     from parasite.network.reduce_choice import choose_model, reduction_report
     from parasite.report import set_written_summary
     from parasite.writer import initial_current_warnings, write_netlist
@@ -88,10 +89,8 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
     if extraction.inputs.graph.segments:
         report["warnings"] += initial_current_warnings(extraction.inputs.netlist,
                                                        set(extraction.inputs.graph.anchors))
-    if ladders is not None:
-        chosen, reduction, why = "full", None, "broadband ladders are written per branch"
-    else:
-        chosen, reduction, why = choose_model(network, model)
+    f_max = DEFAULT_FMAX if ladders is None else max(DEFAULT_FMAX, ladders.band[1])
+    chosen, reduction, why = choose_model(network, model, ladders=ladders, f_max=f_max)
     report["model"] = reduction_report(chosen, reduction, why)
     set_written_summary(report, network, reduction if chosen == "reduced" else None)
     written = write_netlist(network, ladders, reduction if chosen == "reduced" else None)

@@ -70,9 +70,6 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     fband = parse_band(band)
     if (broadband or fband) and frequency is not None:
         raise click.UsageError("--broadband starts from the DC resistance: give no --frequency with it")
-    if (broadband or fband) and model == "reduced":
-        raise click.UsageError("--broadband writes a ladder per branch: give --model full or auto "
-                               "with it")
     wide = BroadbandOptions(band=fband) if fband else (BroadbandOptions() if broadband else None)
     outputs = [output] if report_path is None else [report_path, output]
     check_outputs(outputs, [netlist, routes])

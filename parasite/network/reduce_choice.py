@@ -24,6 +24,8 @@ import numpy as np
 
 from parasite.errors import ExtractionError
 from parasite.network.couplings import coupling_blocks
+from parasite.network.ladder_network import ladder_model_size, ladder_network
+from parasite.network.ladders import BranchLadders
 from parasite.network.ports import probe_nodes
 from parasite.network.reduce import (
     DEFAULT_FMAX,
@@ -72,16 +74,26 @@ def port_nodes(network: Network) -> list[int]:
 
 
 def reduce_for_netlist(network: Network, *, f_max: float = DEFAULT_FMAX,
-                       tolerance: float = DEFAULT_TOLERANCE) -> Reduction:
-    """The reduced model of ``network`` seen from :func:`port_nodes`, and its realisation."""
-    form = mesh_form(network.node_from, network.node_to, len(network.graph.nodes),
-                     port_nodes(network), network.L, network.R)
+                       tolerance: float = DEFAULT_TOLERANCE,
+                       ladders: BranchLadders | None = None) -> Reduction:
+    """The reduced model of ``network`` seen from :func:`port_nodes`, and its
+    realisation; with ``ladders``, of the broadband network
+    (:mod:`parasite.network.ladder_network`)."""
+    if ladders is not None:
+        lad = ladder_network(network, ladders)
+        form = mesh_form(lad.node_from, lad.node_to, lad.n_nodes, port_nodes(network),
+                         lad.L, lad.R)
+    else:
+        form = mesh_form(network.node_from, network.node_to, len(network.graph.nodes),
+                         port_nodes(network), network.L, network.R)
     model = reduce_network(form, f_max=f_max, tolerance=tolerance)
     real = realise(model, full_port_impedance(form, model.freqs, model))
     n_res = len(real.resistors) + len(real.internal_R)
     n_k = int((real.k != 0).sum()) // 2
     red = Reduction(model, real, 0, len(real.inductances) + n_k + n_res)
-    if network.chosen is not None:  # the full model's couplings are known: count them
+    if ladders is not None:
+        red.full_size = ladder_model_size(ladders)
+    elif network.chosen is not None:  # the full model's couplings are known: count them
         red.full_size = full_model_size(network)
     else:  # no search yet: the fewest elements any threshold of the search writes
         red.full_size = len(network.branches) + strong_pairs(network.L, CANDIDATES[0])
@@ -110,8 +122,10 @@ def strong_pairs(L: np.ndarray, k_min: float) -> int:
 
 
 def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAULT_FMAX,
-                 tolerance: float = DEFAULT_TOLERANCE) -> tuple[str, Reduction | None, str]:
-    """``(chosen, reduction, why)``: ``chosen`` ``full`` or ``reduced``."""
+                 tolerance: float = DEFAULT_TOLERANCE,
+                 ladders: BranchLadders | None = None) -> tuple[str, Reduction | None, str]:
+    """``(chosen, reduction, why)``: ``chosen`` ``full`` or ``reduced``; with
+    ``ladders`` the broadband network is reduced (its full model is the ladders)."""
     if model not in MODELS:
         raise ValueError(f"model must be one of {', '.join(MODELS)}, not {model!r}")
     if model == "full" or not network.branches:
@@ -119,7 +133,7 @@ def choose_model(network: Network, model: str = "auto", *, f_max: float = DEFAUL
     if model == "auto" and network.options.min_coupling is not None:
         return "full", None, "--min-coupling given: it sets the full model's couplings"
     try:
-        red = reduce_for_netlist(network, f_max=f_max, tolerance=tolerance)
+        red = reduce_for_netlist(network, f_max=f_max, tolerance=tolerance, ladders=ladders)
     except np.linalg.LinAlgError as exc:  # e.g. a branch without resistance: R not definite
         if model == "auto":
             return "full", None, f"no reduced model: {exc}"
