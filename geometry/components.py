@@ -4,11 +4,12 @@ the graph builder's checks and the network's current-carrying copper)."""
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
 
-def component_roots(n_nodes: int, node_from: np.ndarray, node_to: np.ndarray) -> np.ndarray:
+def component_roots(n_nodes: int, node_from: ArrayLike, node_to: ArrayLike) -> np.ndarray:
     """Per node, the smallest node id of the piece of copper it lies on (edges
     ``node_from[i]``-``node_to[i]``); two nodes are joined exactly when their roots are
     equal. Vectorised: scipy's connected components, then the least id of each."""

@@ -138,6 +138,7 @@ class CouplingSelection:
         if self.lam is None:
             object.__setattr__(self, "lam", smallest_eigenvalue(
                 written_matrix(self.self_inductance, self.i, self.j, self.k)))
+        assert self.lam is not None
         return float(self.lam)
 
 
