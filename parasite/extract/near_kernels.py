@@ -80,7 +80,7 @@ _SIGNS = np.array([1.0, -1.0, -1.0, 1.0])
 # ---------------------------------------------------------------- filaments
 
 
-@nb.njit(cache=True, inline="always")
+@nb.njit(cache=True, inline="always", error_model="numpy")
 def _g_parallel(x: float, rho: float) -> float:
     """:func:`parasite.extract.filaments.g_parallel` for one x (m)."""
     if rho > 0:
@@ -92,7 +92,7 @@ def _g_parallel(x: float, rho: float) -> float:
     return 0.0
 
 
-@nb.njit(cache=True, inline="always")
+@nb.njit(cache=True, inline="always", error_model="numpy")
 def _corner(a0: float, a1: float, b0: float, b1: float, k: int) -> float:
     """Corner difference k of :func:`parasite.extract.filaments.corner_differences`."""
     if k == 0:
@@ -104,7 +104,7 @@ def _corner(a0: float, a1: float, b0: float, b1: float, k: int) -> float:
     return b0 - a1
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _parallel_filament_integral(a0: float, a1: float, b0: float, b1: float,
                                 rho: float) -> float:
     """:func:`parasite.extract.filaments.parallel_filament_integral` (m)."""
@@ -114,7 +114,7 @@ def _parallel_filament_integral(a0: float, a1: float, b0: float, b1: float,
     return acc
 
 
-@nb.njit(cache=True, inline="always")
+@nb.njit(cache=True, inline="always", error_model="numpy")
 def _skew_antiderivative(s: float, t: float, c: float, sn: float, d: float) -> float:
     """:func:`parasite.extract.filaments._skew_antiderivative` (m)."""
     r = np.sqrt(max(s * s + t * t - 2.0 * s * t * c + d * d, 0.0))
@@ -132,7 +132,7 @@ def _skew_antiderivative(s: float, t: float, c: float, sn: float, d: float) -> f
     return term_s + term_t - term_d
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def filament_mutual(pax: float, pay: float, paz: float, qax: float, qay: float, qaz: float,
                     pbx: float, pby: float, pbz: float, qbx: float, qby: float,
                     qbz: float) -> float:
@@ -178,7 +178,7 @@ def filament_mutual(pax: float, pay: float, paz: float, qax: float, qay: float, 
 # ---------------------------------------------------------------- inclined pairs
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _segment_distance(a: int, b: int, start: np.ndarray, end: np.ndarray) -> float:
     """:func:`parasite.extract.inclined.segment_distance` of conductors a and b (m)."""
     d1x, d1y, d1z = end[a, 0] - start[a, 0], end[a, 1] - start[a, 1], end[a, 2] - start[a, 2]
@@ -203,7 +203,7 @@ def _segment_distance(a: int, b: int, start: np.ndarray, end: np.ndarray) -> flo
     return np.sqrt(gx * gx + gy * gy + gz * gz)
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _choose_order(distance: float, size: float) -> int:
     """:func:`parasite.extract.inclined.choose_order` for one pair."""
     ratio = distance / size
@@ -214,7 +214,7 @@ def _choose_order(distance: float, size: float) -> int:
     return order
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _inclined(a: int, b: int, start: np.ndarray, end: np.ndarray, w_dir: np.ndarray,
               t_dir: np.ndarray, width: np.ndarray, thickness: np.ndarray, rnd: np.ndarray,
               size: np.ndarray) -> float:
@@ -254,7 +254,7 @@ def _inclined(a: int, b: int, start: np.ndarray, end: np.ndarray, w_dir: np.ndar
 # ---------------------------------------------------------------- parallel pairs
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _filaments_corrected(a0: float, a1: float, b0: float, b1: float, dy: float, dz: float,
                          m2y: float, m2z: float, m4: float, with_m4: bool) -> float:
     """:func:`parasite.extract.bars.parallel_filaments_corrected` (H)."""
@@ -279,7 +279,7 @@ def _filaments_corrected(a0: float, a1: float, b0: float, b1: float, dy: float, 
     return MU0_4PI * acc
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _hoer_love_f(x: float, y: float, z: float) -> float:
     """:func:`parasite.extract.bars.hoer_love_f` (m^5)."""
     x, y, z = abs(x), abs(y), abs(z)
@@ -302,7 +302,7 @@ def _hoer_love_f(x: float, y: float, z: float) -> float:
     return val
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _rect_log_kernel(y: float, z: float) -> float:
     """:func:`parasite.extract.bars.rect_log_kernel` (m^4)."""
     y, z = abs(y), abs(z)
@@ -315,7 +315,7 @@ def _rect_log_kernel(y: float, z: float) -> float:
     return lg + at - 25 * y2 * z2 / 48
 
 
-@nb.njit(cache=True, inline="always")
+@nb.njit(cache=True, inline="always", error_model="numpy")
 def _psi_series(a: float, lnrho: float, r2: float, r4: float, r6: float) -> float:
     """:func:`parasite.extract.bars._psi_series` (m)."""
     if not a > 0:
@@ -325,7 +325,7 @@ def _psi_series(a: float, lnrho: float, r2: float, r4: float, r6: float) -> floa
     return a * (np.log(2 * a) - 1.0 - lnrho) - ia * (r2 / 4 - ia2 * (r4 / 32 - ia2 * r6 / 96))
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _cross_section_sum(x: float, yd: np.ndarray, zd: np.ndarray) -> float:
     """:func:`parasite.extract.bars._cross_section_sum` for one x (m^5)."""
     acc = 0.0
@@ -335,7 +335,7 @@ def _cross_section_sum(x: float, yd: np.ndarray, zd: np.ndarray) -> float:
     return acc
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _bars_near(a0: float, a1: float, b0: float, b1: float, dy: float, dz: float, w1: float,
                t1: float, w2: float, t2: float) -> float:
     """:func:`parasite.extract.bars.parallel_bars_near` of one pair (H)."""
@@ -392,7 +392,7 @@ def _bars_near(a0: float, a1: float, b0: float, b1: float, dy: float, dz: float,
     return MU0_4PI * acc
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, error_model="numpy")
 def _parallel(a: int, b: int, sgn: float, start: np.ndarray, end: np.ndarray, u: np.ndarray,
               length: np.ndarray, rnd: np.ndarray, width: np.ndarray, thickness: np.ndarray,
               radius: np.ndarray, inner: np.ndarray, w_dir: np.ndarray, t_dir: np.ndarray,
@@ -442,7 +442,7 @@ def _parallel(a: int, b: int, sgn: float, start: np.ndarray, end: np.ndarray, u:
 # ---------------------------------------------------------------- the batch
 
 
-@nb.njit(cache=True, parallel=True)
+@nb.njit(cache=True, parallel=True, error_model="numpy")
 def near_batch(pa: np.ndarray, pb: np.ndarray, start: np.ndarray, end: np.ndarray,
                u: np.ndarray, length: np.ndarray, rnd: np.ndarray, width: np.ndarray,
                thickness: np.ndarray, radius: np.ndarray, inner: np.ndarray,
