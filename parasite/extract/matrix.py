@@ -3,8 +3,9 @@
 Each pair is evaluated by the formula for its kind (:mod:`parasite.extract.pairs`:
 exact or filament forms near, Neumann's formula by line quadrature far): the far
 pairs in compiled loops over the rows on all cores (:mod:`parasite.extract.kernels`),
-the near ones listed there and evaluated in large numpy batches on threads. The
-numpy block arrangement of the same formulas is kept as the reference
+the near ones listed there and evaluated in a compiled batch over the list on all
+cores (:mod:`parasite.extract.near_kernels`; two rare families by numpy). The numpy
+block arrangement of the same formulas is kept as the reference
 (:mod:`parasite.extract.matrix_numpy`).
 
 Return planes: ``L_ij = M(i, j) + M(i, image_j(j))`` with image factor -1
@@ -123,8 +124,9 @@ def inductance_matrix(arrays: SegmentArrays, *,
         progress(done, total)
 
     # compiled loops over the pairs (parasite.extract.kernels), rows in parallel; the
-    # near pairs of each chunk of rows are listed, evaluated by the exact formulas in
-    # large numpy batches, then read back in order by the compiled fill
+    # near pairs of each chunk of rows are listed, evaluated by the exact formulas in a
+    # compiled batch (parasite.extract.near_kernels), then read back in order by the
+    # compiled fill
     for r0, r1 in _row_chunks(n):
         done += _fill_chunk(L, cond, r0, r1, img_index, mz)
         if progress is not None:
