@@ -20,6 +20,7 @@ import pytest
 from scipy.integrate import dblquad
 
 import parasite.extract.matrix as matrix
+from geometry.model import SegmentArrays
 from parasite.extract import inductance_matrix, kernels
 from parasite.extract.matrix import tables
 from parasite.extract.matrix_numpy import inductance_matrix_numpy
@@ -41,7 +42,7 @@ def test_compiled_equals_numpy_reference(seed: int, planes: str) -> None:
     assert np.max(np.abs(fast - ref) / tol) < 1.0
 
 
-def _entry_rounding(arrays) -> np.ndarray:
+def _entry_rounding(arrays: SegmentArrays) -> np.ndarray:
     """Rounding estimate (H) of each entry from its near parallel-bar terms (direct, and
     half of each image term): the exact bar sum cancels digits, so the compiled and the
     numpy evaluation differ by more than 1e-12 there (tests/extract/test_near_kernels.py)."""
