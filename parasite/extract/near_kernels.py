@@ -281,19 +281,22 @@ def _filaments_corrected(a0: float, a1: float, b0: float, b1: float, dy: float, 
 
 @nb.njit(cache=True, error_model="numpy")
 def _hoer_love_f(x: float, y: float, z: float) -> float:
-    """:func:`parasite.extract.bars.hoer_love_f` (m^5)."""
+    """:func:`parasite.extract.bars.hoer_love_f` (m^5). A term whose prefactor is 0
+    (an argument 0, as for bars of one thickness side by side) is 0 without
+    evaluating its arcsinh or arctan (the same value: 0 times a finite number)."""
     x, y, z = abs(x), abs(y), abs(z)
     x2, y2, z2 = x * x, y * y, z * z
     r = np.sqrt(x2 + y2 + z2)
     den = np.sqrt(y2 + z2)
-    lx = x * np.arcsinh(x / den) if den > 0 else 0.0
+    lx = x * np.arcsinh(x / den) if den > 0 and x > 0 else 0.0
     den = np.sqrt(x2 + z2)
-    ly = y * np.arcsinh(y / den) if den > 0 else 0.0
+    ly = y * np.arcsinh(y / den) if den > 0 and y > 0 else 0.0
     den = np.sqrt(x2 + y2)
-    lz = z * np.arcsinh(z / den) if den > 0 else 0.0
-    at_z = np.arctan(x * y / (z * r)) if z * r > 0 else 0.0
-    at_y = np.arctan(x * z / (y * r)) if y * r > 0 else 0.0
-    at_x = np.arctan(y * z / (x * r)) if x * r > 0 else 0.0
+    lz = z * np.arcsinh(z / den) if den > 0 and z > 0 else 0.0
+    xyz = x * y * z > 0
+    at_z = np.arctan(x * y / (z * r)) if xyz else 0.0
+    at_y = np.arctan(x * z / (y * r)) if xyz else 0.0
+    at_x = np.arctan(y * z / (x * r)) if xyz else 0.0
     val = (y2 * z2 / 4 - y2 * y2 / 24 - z2 * z2 / 24) * lx
     val = val + (x2 * z2 / 4 - x2 * x2 / 24 - z2 * z2 / 24) * ly
     val = val + (x2 * y2 / 4 - x2 * x2 / 24 - y2 * y2 / 24) * lz
@@ -325,13 +328,34 @@ def _psi_series(a: float, lnrho: float, r2: float, r4: float, r6: float) -> floa
     return a * (np.log(2 * a) - 1.0 - lnrho) - ia * (r2 / 4 - ia2 * (r4 / 32 - ia2 * r6 / 96))
 
 
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _first_equal(v: np.ndarray) -> np.ndarray:
+    """For each of the 4 values, the index of the first one with the same magnitude
+    (the kernels are even: equal magnitudes give equal values)."""
+    out = np.empty(4, dtype=np.int64)
+    for k in range(4):
+        out[k] = k
+        for m in range(k):
+            if abs(v[m]) == abs(v[k]):
+                out[k] = m
+                break
+    return out
+
+
 @nb.njit(cache=True, error_model="numpy")
-def _cross_section_sum(x: float, yd: np.ndarray, zd: np.ndarray) -> float:
-    """:func:`parasite.extract.bars._cross_section_sum` for one x (m^5)."""
+def _cross_section_sum(x: float, yd: np.ndarray, zd: np.ndarray, fy: np.ndarray,
+                       fz: np.ndarray, f: np.ndarray) -> float:
+    """:func:`parasite.extract.bars._cross_section_sum` for one x (m^5), in the same
+    order; F is evaluated once per distinct (|y|, |z|) (``fy``, ``fz`` from
+    :func:`_first_equal`; ``f`` a 4 x 4 scratch array)."""
     acc = 0.0
     for j in range(4):
         for k in range(4):
-            acc += _SIGNS[j] * _SIGNS[k] * _hoer_love_f(x, yd[j], zd[k])
+            if fy[j] == j and fz[k] == k:
+                f[j, k] = _hoer_love_f(x, yd[j], zd[k])
+            else:
+                f[j, k] = f[fy[j], fz[k]]
+            acc += _SIGNS[j] * _SIGNS[k] * f[j, k]
     return acc
 
 
@@ -368,10 +392,17 @@ def _bars_near(a0: float, a1: float, b0: float, b1: float, dy: float, dz: float,
     for k in range(4):
         yd[k] = _corner(-w1 / 2, w1 / 2, dy - w2 / 2, dy + w2 / 2, k)
         zd[k] = _corner(-t1 / 2, t1 / 2, dz - t2 / 2, dz + t2 / 2, k)
+    fy = _first_equal(yd)
+    fz = _first_equal(zd)
+    f = np.empty((4, 4))
     tot = 0.0
     for j in range(4):
         for k in range(4):
-            tot += _SIGNS[j] * _SIGNS[k] * _rect_log_kernel(yd[j], zd[k])
+            if fy[j] == j and fz[k] == k:
+                f[j, k] = _rect_log_kernel(yd[j], zd[k])
+            else:
+                f[j, k] = f[fy[j], fz[k]]
+            tot += _SIGNS[j] * _SIGNS[k] * f[j, k]
     lnrho = tot / area
     rho_max = np.hypot(abs(dy) + (w1 + w2) / 2, abs(dz) + (t1 + t2) / 2)
     xstar = SERIES_RATIO * rho_max
@@ -383,9 +414,9 @@ def _bars_near(a0: float, a1: float, b0: float, b1: float, dy: float, dz: float,
         if x < xstar:
             if not have_anchor:
                 anchor = (_psi_series(xstar, lnrho, r2, r4, r6)
-                          - _cross_section_sum(xstar, yd, zd) / area)
+                          - _cross_section_sum(xstar, yd, zd, fy, fz, f) / area)
                 have_anchor = True
-            psi = _cross_section_sum(x, yd, zd) / area + anchor
+            psi = _cross_section_sum(x, yd, zd, fy, fz, f) / area + anchor
         else:
             psi = _psi_series(x, lnrho, r2, r4, r6)
         acc += _SIGNS[k] * psi
