@@ -6,16 +6,22 @@ compiled loop over the list, pairs in parallel over the cores (``numba.prange``)
 the same formulas, in the same order of operations and with the same switching rules
 as the numpy reference :func:`parasite.extract.pairs._mutual`:
 
-* parallel bars: Hoer & Love's exact sum split along the length with its series
-  anchor (:func:`parasite.extract.bars.parallel_bars_near`), or the moment-corrected
+* parallel bars: Hoer & Love's exact sum (J. Res. NBS 69C(2), 1965) split along the
+  length with its series anchor (:func:`parasite.extract.bars.parallel_bars_near`), or the moment-corrected
   centre filaments beyond ``FAR_RATIO`` section sizes
   (:func:`parasite.extract.bars.parallel_filaments_corrected`);
 * parallel pairs with a round conductor that are neither coaxial nor a bar close to a
   round conductor: the moment-corrected centre filaments (fourth order for two round
   ones);
 * pairs at any other angle: Gauss-Legendre filaments over both sections with
-  Neumann's closed form (:func:`parasite.extract.inclined.inclined_mutual`, same
-  orders and same one-layer rule).
+  Neumann's closed form (Grover, *Inductance Calculations*, 1946;
+  :func:`parasite.extract.inclined.inclined_mutual`, same orders and same one-layer
+  rule).
+
+The values agree with numpy's to rounding: numpy evaluates arcsinh, arctan and log with
+its vectorised (SIMD) routines, the compiled loop with the C library's, and they differ
+in the last bit, which the cancelling exact bar sum magnifies
+(tests/extract/test_near_kernels.py bounds it).
 
 Two rare families are left to the numpy path (flag ``False`` in ``done``): coaxial
 round conductors (:func:`parasite.extract.round.coaxial_round_mutual`, a via and its
