@@ -7,8 +7,10 @@ The pairs of a board fall in two groups (:mod:`parasite.extract.pairs`):
   Gauss-Legendre quadrature along both centre lines, with the second-order section
   correction when closer than ``PLAIN_SECTION_RATIO`` section sizes
   (:func:`parasite.extract.pairs.far_mutual`, same arithmetic);
-* near pairs: everything else (exact bar formulas, filaments over sections), left to
-  :func:`parasite.extract.pairs._mutual` in large batches.
+* near pairs: everything else (exact bar formulas, filaments over sections), listed
+  here and evaluated by :func:`parasite.extract.matrix.near_values` (compiled in
+  :mod:`parasite.extract.near_kernels`, the same formulas as
+  :func:`parasite.extract.pairs._mutual`).
 
 Here the far pairs are evaluated in compiled loops, rows in parallel over the cores
 (``numba.prange``), and the near pairs are only listed (kind 1 of

@@ -3,8 +3,9 @@
 Each pair is evaluated by the formula for its kind (:mod:`parasite.extract.pairs`:
 exact or filament forms near, Neumann's formula by line quadrature far): the far
 pairs in compiled loops over the rows on all cores (:mod:`parasite.extract.kernels`),
-the near ones listed there and evaluated in large numpy batches on threads. The
-numpy block arrangement of the same formulas is kept as the reference
+the near ones listed there and evaluated in a compiled batch over the list on all
+cores (:mod:`parasite.extract.near_kernels`; two rare families by numpy). The numpy
+block arrangement of the same formulas is kept as the reference
 (:mod:`parasite.extract.matrix_numpy`).
 
 Return planes: ``L_ij = M(i, j) + M(i, image_j(j))`` with image factor -1
@@ -25,7 +26,7 @@ import numpy as np
 
 from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
-from parasite.extract import kernels
+from parasite.extract import kernels, near_kernels
 from parasite.extract.bars import (
     bar_self_inductance,
 )
@@ -123,8 +124,9 @@ def inductance_matrix(arrays: SegmentArrays, *,
         progress(done, total)
 
     # compiled loops over the pairs (parasite.extract.kernels), rows in parallel; the
-    # near pairs of each chunk of rows are listed, evaluated by the exact formulas in
-    # large numpy batches, then read back in order by the compiled fill
+    # near pairs of each chunk of rows are listed, evaluated by the exact formulas in a
+    # compiled batch (parasite.extract.near_kernels), then read back in order by the
+    # compiled fill
     for r0, r1 in _row_chunks(n):
         done += _fill_chunk(L, cond, r0, r1, img_index, mz)
         if progress is not None:
@@ -181,8 +183,30 @@ def _fill_chunk(L: np.ndarray, c: _Conductors, r0: int, r1: int, img: np.ndarray
 
 
 def near_values(c: _Conductors, pa: np.ndarray, pb: np.ndarray) -> np.ndarray:
+    """The near mutual inductance (H) of conductors (pa[k], pb[k]), pairs listed as near
+    by :mod:`parasite.extract.kernels`: compiled, in parallel over the pairs
+    (:func:`parasite.extract.near_kernels.near_batch`); the families left out there
+    (coaxial round conductors, a bar close to a parallel round one) by
+    :func:`parasite.extract.pairs._mutual` in batches of BLOCK_PAIRS on threads."""
+    pa = np.ascontiguousarray(pa, dtype=np.int64)
+    pb = np.ascontiguousarray(pb, dtype=np.int64)
+    out = np.empty(pa.size)
+    done = np.zeros(pa.size, dtype=np.bool_)
+    if pa.size:
+        near_kernels.near_batch(pa, pb, c.start, c.end, c.u, c.length,
+                                np.ascontiguousarray(c.round, dtype=np.bool_), c.width,
+                                c.thickness, c.radius, c.inner, c.w_dir, c.t_dir, c.size,
+                                out, done)
+    rest = np.flatnonzero(~done)
+    if rest.size:
+        out[rest] = near_values_numpy(c, pa[rest], pb[rest])
+    return out
+
+
+def near_values_numpy(c: _Conductors, pa: np.ndarray, pb: np.ndarray) -> np.ndarray:
     """:func:`parasite.extract.pairs._mutual` of the pairs (pa[k], pb[k]) in batches of
-    BLOCK_PAIRS, on threads (numpy releases the GIL in its loops)."""
+    BLOCK_PAIRS, on threads (numpy releases the GIL in its loops): the reference for
+    :func:`near_values`."""
     out = np.empty(pa.size)
     starts = list(range(0, pa.size, BLOCK_PAIRS))
 

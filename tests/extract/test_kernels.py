@@ -8,7 +8,9 @@ test_extract_inclined.py (unchanged); here the claim is that compiling them chan
 nothing but rounding: every entry within 1e-12 of sqrt(L_ii L_jj) (the Cauchy-Schwarz
 bound of a mutual term; entries where a segment and its image nearly cancel are
 small differences of large terms, so a bound relative to the entry itself would
-measure the cancellation, not the kernels).
+measure the cancellation, not the kernels), plus, for entries with exact near
+parallel-bar terms (compiled since, parasite.extract.near_kernels), the rounding
+estimate of that cancelling sum (tests/extract/test_near_kernels.py).
 """
 
 from __future__ import annotations
@@ -18,10 +20,13 @@ import pytest
 from scipy.integrate import dblquad
 
 import parasite.extract.matrix as matrix
+from geometry.model import SegmentArrays
 from parasite.extract import inductance_matrix, kernels
+from parasite.extract.matrix import tables
 from parasite.extract.matrix_numpy import inductance_matrix_numpy
 from parasite.extract.pairs import _conductors
 from tests.extract.test_extract_matrix import random_board
+from tests.extract.test_near_kernels import near_bar_rounding
 
 
 @pytest.mark.parametrize("seed, planes", [(11, "none"), (12, "one"), (13, "two")])
@@ -33,7 +38,26 @@ def test_compiled_equals_numpy_reference(seed: int, planes: str) -> None:
     ref = inductance_matrix_numpy(arrays)
     scale = np.sqrt(np.outer(np.diag(ref), np.diag(ref)))
     assert np.array_equal(fast, fast.T)
-    assert np.max(np.abs(fast - ref) / scale) < 1e-12
+    tol = 1e-12 * scale + _entry_rounding(arrays)
+    assert np.max(np.abs(fast - ref) / tol) < 1.0
+
+
+def _entry_rounding(arrays: SegmentArrays) -> np.ndarray:
+    """Rounding estimate (H) of each entry from its near parallel-bar terms (direct, and
+    half of each image term): the exact bar sum cancels digits, so the compiled and the
+    numpy evaluation differ by more than 1e-12 there (tests/extract/test_near_kernels.py)."""
+    c, img, _mz, _diag = tables(arrays)
+    n = len(arrays)
+    ii, jj = np.triu_indices(n, 1)
+    out = near_bar_rounding(c, ii, jj)
+    for a, b in ((ii, img[jj]), (img[ii], jj)):
+        has = (a >= 0) & (b >= 0)
+        part = np.zeros(ii.size)
+        part[has] = near_bar_rounding(c, a[has], b[has])
+        out += 0.5 * part
+    full = np.zeros((n, n))
+    full[ii, jj] = out
+    return full + full.T
 
 
 def test_chunks_change_only_rounding(monkeypatch: pytest.MonkeyPatch) -> None:
