@@ -128,7 +128,8 @@ def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
     the node injections ``s`` (A entering each node from outside; zero sum on every
     connected piece) on a spanning forest, and the fundamental cycle matrix ``B``
     (N, c), None without cycles (module docstring): every branch current that meets
-    the law is ``i_p + B m``."""
+    the law is ``i_p + B m``. ``injection`` (n_nodes, k) gives ``i_p`` (N, k), one
+    column per injection."""
     nb = len(node_from)
     u = np.asarray(node_from, dtype=np.int64)
     v = np.asarray(node_to, dtype=np.int64)
@@ -144,11 +145,12 @@ def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
     keep = np.ones(n_nodes, dtype=bool)
     keep[np.unique(comp, return_index=True)[1]] = False
     A = A[np.flatnonzero(keep)]
-    i_p = np.zeros(nb)
+    injection = np.asarray(injection, dtype=float)
+    i_p = np.zeros((nb, *injection.shape[1:]))
     lu = None
     if tb.size:
         lu = splu(A[:, tb].tocsc())
-        i_p[tb] = lu.solve(np.asarray(injection, dtype=float)[keep])
+        i_p[tb] = lu.solve(injection[keep])
     if chords.size == 0:
         return i_p, None
     return i_p, _cycles(lu, A, tb, chords, nb)

@@ -50,7 +50,8 @@ import numpy as np
 import scipy.linalg as sla
 import scipy.sparse as sp
 
-from parasite.network.solve import _spanning_forest, incidence, node_components
+from parasite.extract.pour_solve import injection_basis
+from parasite.network.solve import node_components
 from parasite.schedule import run_map
 
 DEFAULT_FMAX = 1e9  # Hz
@@ -92,31 +93,13 @@ def mesh_form(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, ports: l
         else:
             plus.append(p)
             minus.append(ref[lab])
-    tree = _spanning_forest(nf, nt, n_nodes)
-    _, roots = np.unique(labels, return_index=True)
-    keep = np.ones(n_nodes, dtype=bool)
-    keep[roots] = False
-    A = incidence(nf, nt, n_nodes)[np.flatnonzero(keep)]
-    tcols = np.flatnonzero(tree)
-    chords = np.flatnonzero(~tree)
-    A_tree = A[:, tcols].tocsc()
-    T = np.zeros((n, len(plus)))
-    rows, cols, vals = [chords], [np.arange(len(chords))], [np.ones(len(chords))]
-    if A_tree.shape[0]:
-        lu = sp.linalg.splu(A_tree)
-        if plus:
-            inj = np.zeros((n_nodes, len(plus)))
-            inj[plus, np.arange(len(plus))] = 1.0
-            inj[minus, np.arange(len(plus))] -= 1.0
-            T[tcols] = np.rint(lu.solve(inj[keep]))
-        if len(chords):
-            path = -np.rint(lu.solve(A[:, chords].toarray()))
-            r, k = np.nonzero(path)
-            rows.append(tcols[r])
-            cols.append(k)
-            vals.append(path[r, k])
-    C = sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                      shape=(n, len(chords)))
+    inj = np.zeros((n_nodes, len(plus)))
+    inj[plus, np.arange(len(plus))] = 1.0
+    inj[minus, np.arange(len(plus))] -= 1.0
+    T, C = injection_basis(nf, nt, n_nodes, inj)
+    T = np.rint(T)  # 0, +1, -1 on the tree paths: exact
+    if C is None:
+        C = sp.csc_matrix((n, 0))
     return MeshForm(np.array(plus, dtype=np.int64), np.array(minus, dtype=np.int64), T, C,
                     np.asarray(L, dtype=float), np.asarray(R, dtype=float))
 

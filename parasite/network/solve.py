@@ -21,7 +21,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.csgraph import minimum_spanning_tree
 
 from geometry.components import component_roots
 from parasite.extract.pour_solve import cycle_currents, injection_basis
@@ -35,25 +34,6 @@ def incidence(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> sp.cs
     rows = np.concatenate([node_from, node_to])
     vals = np.concatenate([np.ones(n), -np.ones(n)])
     return sp.csc_matrix((vals, (rows, cols)), shape=(n_nodes, n))
-
-
-def _spanning_forest(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> np.ndarray:
-    """Boolean mask of the branches of a spanning forest (the first of parallel
-    branches and the earliest branches preferred; branches from a node to
-    itself are never in it)."""
-    n = len(node_from)
-    u = np.minimum(node_from, node_to).astype(np.int64)
-    v = np.maximum(node_from, node_to).astype(np.int64)
-    candidates = np.flatnonzero(u != v)
-    _, first = np.unique(u[candidates] * n_nodes + v[candidates], return_index=True)
-    candidates = candidates[np.sort(first)]
-    weights = sp.coo_matrix(
-        (candidates + 1.0, (u[candidates], v[candidates])), shape=(n_nodes, n_nodes)
-    ).tocsr()
-    tree = minimum_spanning_tree(weights)
-    mask = np.zeros(n, dtype=bool)
-    mask[np.rint(tree.data).astype(np.int64) - 1] = True
-    return mask
 
 
 def node_components(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int) -> np.ndarray:
