@@ -103,6 +103,43 @@ def _forest(u: np.ndarray, v: np.ndarray, n: int) -> np.ndarray:
     return mask
 
 
+def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+                    injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
+    """:func:`port_basis` for any node injection (A entering each node from outside,
+    adding up to 0 on every connected piece): the particular solution ``i_p`` (N,)
+    carried by a breadth-first spanning forest and the sparse fundamental cycle
+    matrix ``B`` (N, c), None without cycles. Every branch current is ``i_p + B m``."""
+    nb = len(node_from)
+    u = np.asarray(node_from, dtype=np.int64)
+    v = np.asarray(node_to, dtype=np.int64)
+    comp = connected_components(sp.coo_matrix((np.ones(nb), (u, v)), shape=(n_nodes, n_nodes)),
+                                directed=False)[1]
+    s = np.asarray(injection, dtype=float)
+    if np.any(np.abs(np.bincount(comp, weights=s)) > 1e-9):
+        raise ExtractionError("the injected currents do not add up to 0 on a piece of copper",
+                              key="ports")
+    tree = _forest(u, v, n_nodes)
+    tb = np.flatnonzero(tree)
+    chords = np.flatnonzero(~tree)
+    A = sp.csc_matrix((np.concatenate([np.ones(nb), -np.ones(nb)]),
+                       (np.concatenate([u, v]), np.concatenate([np.arange(nb)] * 2))),
+                      shape=(n_nodes, nb))
+    roots = np.unique(comp, return_index=True)[1]
+    keep = np.ones(n_nodes, dtype=bool)
+    keep[roots] = False
+    A = A[np.flatnonzero(keep)]
+    i_p = np.zeros(nb)
+    if tb.size == 0:
+        return i_p, (None if chords.size == 0 else
+                     sp.csc_matrix((np.ones(chords.size), (chords, np.arange(chords.size))),
+                                   shape=(nb, chords.size)))
+    lu = splu(A[:, tb].tocsc())
+    i_p[tb] = lu.solve(s[keep])
+    if chords.size == 0:
+        return i_p, None
+    return i_p, _cycles(lu, A, tb, chords, nb)
+
+
 def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
             nb: int, chunk: int = 512) -> sp.csc_matrix:
     """Fundamental cycle matrix B (N, c): column k is chord k (+1) and the tree path
