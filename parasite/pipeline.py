@@ -96,14 +96,15 @@ def _check_fast_size(graph: CopperGraph, routes_path: str) -> None:
     from geometry.errors import RoutesError
     from geometry.limits import MAX_PIECES_FAST
     from parasite.extract.memory import check_fast_fits
-    from parasite.extract.operator import BOARD_SECTION_RATIO, count_near_pairs
+    from parasite.extract.operator import BOARD_NEAR_SCALE, BOARD_SECTION_RATIO, count_near_pairs
 
     n = len(graph.segments)
     if n > MAX_PIECES_FAST:
         raise RoutesError(f"the copper makes {n} pieces; at most {MAX_PIECES_FAST} are accepted "
                           f"with the inductance operator (see 'Limits' in docs/routes-file.md)",
                           file=routes_path)
-    check_fast_fits(n, count_near_pairs(graph.arrays, BOARD_SECTION_RATIO) if n else 0,
+    check_fast_fits(n, count_near_pairs(graph.arrays, BOARD_SECTION_RATIO, BOARD_NEAR_SCALE)
+                    if n else 0,
                     routes_path)
 
 
@@ -189,13 +190,14 @@ def extract_fast(
     ``progress`` counts the exact near pairs) and the resistances of every segment."""
     from parasite.errors import ExtractionError
     from parasite.extract import resistances
-    from parasite.extract.operator import BOARD_SECTION_RATIO, FastInductance
+    from parasite.extract.operator import BOARD_NEAR_SCALE, BOARD_SECTION_RATIO, FastInductance
 
     arrays = inputs.graph.arrays
     if len(arrays) == 0:
         raise ExtractionError("no copper: the inductance operator needs segments",
                               file=inputs.routes_path)
-    op = FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, progress=progress)
+    op = FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
+                        progress=progress)
     R = resistances(arrays, inputs.routes.copper, frequency)
     check_finite(inputs, op.diagonal(), R)
     return FastExtraction(inputs, op, R, frequency)

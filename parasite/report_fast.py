@@ -123,8 +123,9 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
         "inductance": {
             "method": "fast",
             "near_pairs": op.pairs_near // 2,
-            "near_radius": "max(3.5 l, l + section_ratio h) per segment",
+            "near_radius": "near_scale max(3.5 l, l + section_ratio h) per segment",
             "section_ratio": getattr(op, "section_ratio", None),
+            "near_scale": getattr(op, "near_scale", None),
             "far_field_eps": op.eps,
             "gmres_rtol": GMRES_RTOL,
             "left_out": [{"what": w, "why": y} for w, y in left_out],
