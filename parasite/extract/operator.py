@@ -116,20 +116,27 @@ def entries(c: _Conductors, img: np.ndarray, mz: np.ndarray, ii: np.ndarray,
     return out
 
 
-def _near_pairs(xy: np.ndarray, radius: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _near_pairs(xy: np.ndarray, radius: np.ndarray,
+                chunk: int = 2048) -> tuple[np.ndarray, np.ndarray]:
     """Pairs i < j whose horizontal midpoint distance is below radius_i + radius_j (a
-    superset of them: each segment's ball of twice its radius, found by a k-d tree)."""
+    superset of them: each segment's ball of twice its radius, found by a k-d tree),
+    searched ``chunk`` segments at a time so that the tree's lists stay small."""
     from scipy.spatial import cKDTree
 
+    n = len(xy)
     tree = cKDTree(xy)
-    hits = tree.query_ball_point(xy, 2.0 * radius, return_sorted=False)
-    counts = np.fromiter((len(h) for h in hits), dtype=np.int64, count=len(hits))
-    jj = np.fromiter((j for h in hits for j in h), dtype=np.int64, count=int(counts.sum()))
-    ii = np.repeat(np.arange(len(hits), dtype=np.int64), counts)
-    a, b = np.minimum(ii, jj), np.maximum(ii, jj)
-    keep = a < b
-    key = np.unique(a[keep] * len(hits) + b[keep])
-    return key // len(hits), key % len(hits)
+    keys = []
+    for r0 in range(0, n, chunk):
+        r1 = min(n, r0 + chunk)
+        hits = tree.query_ball_point(xy[r0:r1], 2.0 * radius[r0:r1], return_sorted=False)
+        counts = np.fromiter((len(h) for h in hits), dtype=np.int64, count=len(hits))
+        jj = np.fromiter((j for h in hits for j in h), dtype=np.int64, count=int(counts.sum()))
+        ii = np.repeat(np.arange(r0, r1, dtype=np.int64), counts)
+        a, b = np.minimum(ii, jj), np.maximum(ii, jj)
+        keep = a < b
+        keys.append(a[keep] * n + b[keep])
+    key = np.unique(np.concatenate(keys)) if keys else np.zeros(0, np.int64)
+    return key // n, key % n
 
 
 class FastInductance:

@@ -137,7 +137,53 @@ def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
     i_p[tb] = lu.solve(s[keep])
     if chords.size == 0:
         return i_p, None
-    return i_p, _cycles(lu, A, tb, chords, nb)
+    return i_p, tree_cycles(u, v, n_nodes, tree, chords)
+
+
+def tree_cycles(u: np.ndarray, v: np.ndarray, n: int, tree: np.ndarray,
+                chords: np.ndarray) -> sp.csc_matrix:
+    """Fundamental cycle matrix B (N, c) by walking the spanning forest ``tree`` (mask of
+    branches ``u -> v``): column k is chord k (+1 from its ``u`` to its ``v``) and the
+    tree path back from ``v`` to ``u`` (+1 where a branch is run along its direction),
+    all chords advanced together one level at a time (no dense solve)."""
+    tb = np.flatnonzero(tree)
+    adj = sp.coo_matrix((np.concatenate([tb, tb]) + 1.0,
+                         (np.concatenate([u[tb], v[tb]]), np.concatenate([v[tb], u[tb]]))),
+                        shape=(n, n)).tocsr()
+    parent = np.full(n, -1, dtype=np.int64)
+    pbranch = np.full(n, -1, dtype=np.int64)
+    depth = np.zeros(n, dtype=np.int64)
+    labels = connected_components(adj, directed=False)[1]
+    sizes = np.bincount(labels)
+    _, roots = np.unique(labels, return_index=True)
+    for root in roots[sizes[labels[roots]] > 1]:
+        order, pred = breadth_first_order(adj, int(root), directed=False,
+                                          return_predecessors=True)
+        child = order[1:]
+        parent[child] = pred[child]
+        pbranch[child] = np.rint(np.asarray(adj[pred[child], child]).ravel()).astype(np.int64) - 1
+        for x in child:  # breadth-first: the parent's depth is known first
+            depth[x] = depth[parent[x]] + 1
+    c = chords.size
+    rows, cols, vals = [chords], [np.arange(c)], [np.ones(c)]
+    a, b = v[chords].copy(), u[chords].copy()  # walk v -> lca (upwards), lca -> u (downwards)
+    k = np.arange(c)
+    live = a != b
+    while np.any(live):
+        up_a = live & (depth[a] >= depth[b])
+        up_b = live & ~up_a
+        for side, ends in ((up_a, a), (up_b, b)):
+            idx = np.flatnonzero(side)
+            x = ends[idx]
+            br = pbranch[x]
+            along = (u[br] == x).astype(float) * 2.0 - 1.0  # x -> parent runs along u -> v
+            rows.append(br)
+            cols.append(k[idx])
+            vals.append(along if ends is a else -along)
+            ends[idx] = parent[x]
+        live = a != b
+    return sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                         shape=(len(u), c))
 
 
 def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
