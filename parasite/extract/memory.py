@@ -13,8 +13,10 @@ The fast path (:class:`parasite.extract.operator.FastInductance`, ``report`` and
 exact near pairs (sparse near field, its correction, their construction and the
 loop solves' sparse preconditioner) and with the segments (the copper graph, the
 multipole sums' points and tree). :func:`fast_bytes` estimates it as
+``FAST_BYTES_BASE`` (the interpreter, the compiled kernels and the libraries) plus
 ``FAST_BYTES_PER_PAIR`` per near pair plus ``FAST_BYTES_PER_SEGMENT`` per segment
-(figures measured by ``benchmarks/bench_board_scale.py``, rounded up).
+(figures from ``benchmarks/bench_board_scale.py``, rounded up: 891 MiB peak at 4,674
+segments and 1.2 M near pairs, 4,291 MiB at 22,013 segments and 11.7 M pairs).
 """
 
 from __future__ import annotations
@@ -56,6 +58,8 @@ def dense_bytes(n: int) -> float:
     return DENSE_FACTOR * 8.0 * float(n) ** 2
 
 
+FAST_BYTES_BASE = 512.0 * 2**20
+"""Bytes of a fast-path run before any board-sized array (measured about 300 MB)."""
 FAST_BYTES_PER_PAIR = 400.0
 """Peak bytes per exact near pair on the fast path (measured, rounded up)."""
 FAST_BYTES_PER_SEGMENT = 20_000.0
@@ -65,7 +69,8 @@ FAST_BYTES_PER_SEGMENT = 20_000.0
 def fast_bytes(n: int, near_pairs: int) -> float:
     """Estimated peak bytes of a fast-path run over ``n`` segments with ``near_pairs``
     exact near pairs (``i < j``)."""
-    return FAST_BYTES_PER_SEGMENT * float(n) + FAST_BYTES_PER_PAIR * float(near_pairs)
+    return (FAST_BYTES_BASE + FAST_BYTES_PER_SEGMENT * float(n)
+            + FAST_BYTES_PER_PAIR * float(near_pairs))
 
 
 def dense_fits(n: int) -> bool:
