@@ -16,7 +16,7 @@ multipole sums' points and tree). :func:`fast_bytes` estimates it as
 ``FAST_BYTES_BASE`` (the interpreter, the compiled kernels and the libraries) plus
 ``FAST_BYTES_PER_PAIR`` per near pair plus ``FAST_BYTES_PER_SEGMENT`` per segment
 (figures from ``benchmarks/bench_board_scale.py``, rounded up: 891 MiB peak at 4,674
-segments and 1.2 M near pairs, 4,291 MiB at 22,013 segments and 11.7 M pairs).
+segments and 1.2 M near pairs, 4,291 MiB at 22,013 segments and about 4.5 M pairs).
 """
 
 from __future__ import annotations
@@ -60,7 +60,7 @@ def dense_bytes(n: int) -> float:
 
 FAST_BYTES_BASE = 512.0 * 2**20
 """Bytes of a fast-path run before any board-sized array (measured about 300 MB)."""
-FAST_BYTES_PER_PAIR = 400.0
+FAST_BYTES_PER_PAIR = 800.0
 """Peak bytes per exact near pair on the fast path (measured, rounded up)."""
 FAST_BYTES_PER_SEGMENT = 20_000.0
 """Peak bytes per segment on the fast path besides the near pairs (measured, rounded up)."""
