@@ -41,6 +41,9 @@ MAX_ROUTES_ARRAYS = 400_000
 MAX_PIECES = 10_000
 """Pieces of copper (segments, and pour cells) of one board: the inductance
 matrix of N pieces takes 8 N^2 bytes (800 MB at the limit)."""
+MAX_PIECES_FAST = 1_000_000
+"""Pieces of copper of one board held as the inductance operator (``report`` and
+``check`` with ``--inductance fast``): memory linear in N, checked separately."""
 MAX_INCLUDE_DEPTH = 32
 """``.include`` / ``.lib`` files inside each other."""
 MAX_SUBCKT_DEPTH = 64

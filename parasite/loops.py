@@ -150,6 +150,9 @@ class LoopResult:
     copper_inductance: float | None = None  # H, the copper's share (None: as ``inductance``)
     parts: tuple[tuple[str, float], ...] = ()  # (terminal as written, H) per [[part]] on the path
     netlist_resistance: float | None = None  # ohm: the same currents through the R passed in
+    # the fast path's solve (parasite.loops_operator): operator, GMRES iterations and
+    # tolerance, where the pair terms come from; None on the dense path
+    solver: dict[str, Any] | None = field(default=None, compare=False)
 
     @property
     def over_limit(self) -> bool:
@@ -315,7 +318,8 @@ def loop_result_dict(r: LoopResult, *, top: int = DEFAULT_TOP_PAIRS) -> dict[str
             {"a": a, "b": b, "inductance": term, "share": share(term)}
             for a, b, term in r.pair_contributors[:top]
         ],
-    } | ({} if not r.pours else {"pours": [
+    } | ({} if r.solver is None else {"solver": dict(r.solver)}) | (
+        {} if not r.pours else {"pours": [
         {"pour": p.source, "name": p.name, "net": p.net, "layer": p.layer,
          "inductance": p.inductance, "share": share(p.inductance),
          "peak_current": p.peak_current, "cells": p.cells}

@@ -198,12 +198,27 @@ def report_text(report: dict[str, Any], max_couplings: int = 20, top_terms: int 
 
         out += ["", f"Probes: {len(report['probes'])}"] + format_probe_table(report["probes"])
     out += loop_coupling_text(report)
+    out += inductance_text(report)
     sm = report["summary"]
     out += ["", "Summary:"]
     out += [f"  {k}: {v}" for k, v in sm.items()]
     out += ["", f"Warnings: {len(report['warnings'])}"] + [f"  {w}" for w in report["warnings"]]
     out += ["", report["caution"]]
     return "\n".join(out) + "\n"
+
+
+def inductance_text(report: dict[str, Any]) -> list[str]:
+    """Text lines of the fast path's ``inductance`` section (none on the dense path):
+    how the inductance was held and solved, and what the report leaves out and why."""
+    ind = report.get("inductance")
+    if not ind:
+        return []
+    out = ["", f"Inductance: fast operator (exact near field, {ind['near_pairs']:,} near pairs; "
+           f"far field by multipoles, eps {ind['far_field_eps']:g}); loops by GMRES to a "
+           f"relative residual of {ind['gmres_rtol']:g} (iterations per loop in the JSON report)"]
+    out += ["Left out on the fast path:"]
+    out += [f"  {e['what']}: {e['why']}" for e in ind["left_out"]]
+    return out
 
 
 LOOP_SECTIONS = ("loop_pairs", "mutual_limits", "pickup", "dipoles")

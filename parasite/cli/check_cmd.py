@@ -19,6 +19,9 @@ import click
 from parasite.cli import EXIT_OVER_LIMIT, reports_input_errors
 from parasite.cli.options import (
     echo_warnings,
+    inductance_opt,
+    loop_progress,
+    near_progress,
     netlist_arg,
     progress_callback,
     quiet_opt,
@@ -42,11 +45,12 @@ def _pair(value: float, limit: float) -> tuple[str, str]:
 @click.command()
 @netlist_arg
 @routes_arg
+@inductance_opt
 @strict_opt
 @scheduler_opt
 @quiet_opt
 @reports_input_errors
-def check(netlist: str, routes: str, strict: bool, scheduler: str | None,
+def check(netlist: str, routes: str, inductance: str, strict: bool, scheduler: str | None,
            quiet: bool) -> None:
     """Check every [[loop]] of ROUTES against its limit: exit 3 when one is over.
 
@@ -59,18 +63,21 @@ def check(netlist: str, routes: str, strict: bool, scheduler: str | None,
     from parasite.schedule import connected
 
     click.get_current_context().with_resource(connected(scheduler))  # before any work
-    inputs = load_inputs(netlist, routes)
+    inputs = load_inputs(netlist, routes, inductance)
     echo_warnings(list(inputs.graph.warnings), strict)
     if not inputs.routes.loops:
         click.echo(f"{routes}: warning: no [[loop]] entries, nothing to check", err=True)
         return
-    extraction = extract(inputs, progress=progress_callback(quiet))
-    results = loop_results(inputs.graph, inputs.netlist, extraction.L, extraction.R)
+    if inputs.inductance == "fast":
+        results, limits = _fast_results(inputs, quiet)
+    else:
+        extraction = extract(inputs, progress=progress_callback(quiet))
+        results = loop_results(inputs.graph, inputs.netlist, extraction.L, extraction.R)
+        limits = _mutual_limits(inputs.graph, results, extraction.L)
     over = [r for r in results if r.over_limit]
     text = format_loop_table(results)
     if over:  # what to move first
         text += "\n" + format_loop_contributors(over, top=3, graph=inputs.graph)
-    limits = _mutual_limits(inputs.graph, results, extraction.L)
     if limits:
         from parasite.report import loop_coupling_text
 
@@ -89,6 +96,29 @@ def check(netlist: str, routes: str, strict: bool, scheduler: str | None,
                    f"{value} > {limit}", err=True)
     if over or mutual_over:
         sys.exit(EXIT_OVER_LIMIT)
+
+
+def _fast_results(inputs: object, quiet: bool) -> tuple[list, list[dict]]:
+    """The loops and the mutual limits on the fast path (the inductance operator,
+    :mod:`parasite.loops_operator`; pair terms of the exact near field only)."""
+    from parasite.errors import ParasiteError
+    from parasite.field.loop_report import limit_entries, loop_coupling_matrix_operator
+    from parasite.loops_operator import loop_results_operator
+    from parasite.pipeline import extract_fast
+
+    try:
+        fast = extract_fast(inputs, progress=near_progress(quiet))  # type: ignore[arg-type]
+        graph = fast.inputs.graph
+        results = loop_results_operator(graph, fast.inputs.netlist, fast.op, fast.R,
+                                        progress=loop_progress(quiet))
+        specs = list(graph.routes.loops)
+        limits = (limit_entries(specs, results, loop_coupling_matrix_operator(results, fast.op))
+                  if any(s.mutual for s in specs) else [])
+    except ParasiteError as exc:
+        if exc.file is None:
+            exc.file = inputs.routes_path  # type: ignore[attr-defined]
+        raise
+    return results, limits
 
 
 def _mutual_limits(graph: object, results: list, L: object) -> list[dict]:

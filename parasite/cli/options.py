@@ -124,3 +124,30 @@ def progress_callback(quiet: bool) -> Any:
     except ImportError:
         return None
     return make_progress()
+
+
+inductance_opt = click.option(
+    "--inductance", type=click.Choice(["auto", "dense", "fast"]), default="auto",
+    show_default=True,
+    help="How the partial inductance is held: dense (the N x N matrix, the reference), fast "
+         "(exact near field + multipole far field, memory linear in N; loops by iterative "
+         "solves, no circuit model) or auto (dense when the board has at most 10,000 pieces "
+         "and the dense estimate fits in memory, else fast). See docs/scale.md.")
+
+
+def loop_progress(quiet: bool) -> Any:
+    """A progress callback for the fast path's loop solves (None when quiet or unavailable)."""
+    if quiet:
+        return None
+    from parasite.progress import progress_reporter
+
+    return progress_reporter(False, label="loops solved")
+
+
+def near_progress(quiet: bool) -> Any:
+    """A progress callback for the fast path's exact near pairs."""
+    if quiet:
+        return None
+    from parasite.progress import progress_reporter
+
+    return progress_reporter(False, label="near pairs")

@@ -7,6 +7,16 @@ work on. Peak memory measured at about 3.8 times the matrix alone (7,928 cells:
 estimate is ``DENSE_FACTOR * 8 N^2`` bytes. A board past that is refused before
 the matrix is allocated, with what it would need, instead of being killed by the
 operating system part-way.
+
+The fast path (:class:`parasite.extract.operator.FastInductance`, ``report`` and
+``check`` with ``--inductance fast``) holds no N x N array: its memory grows with the
+exact near pairs (sparse near field, its correction, their construction and the
+loop solves' sparse preconditioner) and with the segments (the copper graph, the
+multipole sums' points and tree). :func:`fast_bytes` estimates it as
+``FAST_BYTES_BASE`` (the interpreter, the compiled kernels and the libraries) plus
+``FAST_BYTES_PER_PAIR`` per near pair plus ``FAST_BYTES_PER_SEGMENT`` per segment
+(figures from ``benchmarks/bench_board_scale.py``, rounded up: 891 MiB peak at 4,674
+segments and 1.2 M near pairs, 4,291 MiB at 22,013 segments and about 4.5 M pairs).
 """
 
 from __future__ import annotations
@@ -48,6 +58,43 @@ def dense_bytes(n: int) -> float:
     return DENSE_FACTOR * 8.0 * float(n) ** 2
 
 
+FAST_BYTES_BASE = 512.0 * 2**20
+"""Bytes of a fast-path run before any board-sized array (measured about 300 MB)."""
+FAST_BYTES_PER_PAIR = 800.0
+"""Peak bytes per exact near pair on the fast path (measured, rounded up)."""
+FAST_BYTES_PER_SEGMENT = 20_000.0
+"""Peak bytes per segment on the fast path besides the near pairs (measured, rounded up)."""
+
+
+def fast_bytes(n: int, near_pairs: int) -> float:
+    """Estimated peak bytes of a fast-path run over ``n`` segments with ``near_pairs``
+    exact near pairs (``i < j``)."""
+    return (FAST_BYTES_BASE + FAST_BYTES_PER_SEGMENT * float(n)
+            + FAST_BYTES_PER_PAIR * float(near_pairs))
+
+
+def dense_fits(n: int) -> bool:
+    """Whether the dense estimate of ``n`` pieces fits in the memory available."""
+    have = available_memory()
+    return have is None or dense_bytes(n) <= have
+
+
+def check_fast_fits(n: int, near_pairs: int, routes_path: str | None) -> None:
+    """Refuse a fast-path run whose estimate (:func:`fast_bytes`) exceeds the memory
+    available, naming the routes file, the need and the remedies."""
+    have = available_memory()
+    need = fast_bytes(n, near_pairs)
+    if have is None or need <= have:
+        return
+    raise ExtractionError(
+        f"{n} pieces of copper with {near_pairs} near pairs need about {need / 2**30:.3g} GiB "
+        f"for the fast inductance operator and its loop solves, more than the "
+        f"{have / 2**30:.3g} GiB available ({ENV} or the system's free memory): use coarser "
+        f"pour cells (`cell` of each [[pour]]: the segments fall with the square of the "
+        f"cell size), or fewer pieces (import only the nets that matter), or a machine "
+        f"with more memory", file=routes_path)
+
+
 def check_dense_fits(n: int, routes_path: str | None) -> None:
     """Refuse ``n`` pieces when the dense estimate exceeds the memory available,
     naming the routes file, the need and the remedies."""
@@ -60,4 +107,5 @@ def check_dense_fits(n: int, routes_path: str | None) -> None:
         f"matrix and its solves ({DENSE_FACTOR:g} x 8 N^2 bytes), more than the "
         f"{have / 2**30:.3g} GiB available ({ENV} or the system's free memory): use coarser "
         f"pour cells (`cell` of each [[pour]]), or fewer pieces (import only the nets that "
-        f"matter), or a machine with more memory", file=routes_path)
+        f"matter), or a machine with more memory; `parasite report` and `parasite check` "
+        f"with `--inductance fast` hold no dense matrix", file=routes_path)

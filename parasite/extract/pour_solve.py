@@ -103,6 +103,89 @@ def _forest(u: np.ndarray, v: np.ndarray, n: int) -> np.ndarray:
     return mask
 
 
+def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+                    injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
+    """:func:`port_basis` for any node injection (A entering each node from outside,
+    adding up to 0 on every connected piece): the particular solution ``i_p`` (N,)
+    carried by a breadth-first spanning forest and the sparse fundamental cycle
+    matrix ``B`` (N, c), None without cycles. Every branch current is ``i_p + B m``."""
+    nb = len(node_from)
+    u = np.asarray(node_from, dtype=np.int64)
+    v = np.asarray(node_to, dtype=np.int64)
+    comp = connected_components(sp.coo_matrix((np.ones(nb), (u, v)), shape=(n_nodes, n_nodes)),
+                                directed=False)[1]
+    s = np.asarray(injection, dtype=float)
+    if np.any(np.abs(np.bincount(comp, weights=s)) > 1e-9):
+        raise ExtractionError("the injected currents do not add up to 0 on a piece of copper",
+                              key="ports")
+    tree = _forest(u, v, n_nodes)
+    tb = np.flatnonzero(tree)
+    chords = np.flatnonzero(~tree)
+    A = sp.csc_matrix((np.concatenate([np.ones(nb), -np.ones(nb)]),
+                       (np.concatenate([u, v]), np.concatenate([np.arange(nb)] * 2))),
+                      shape=(n_nodes, nb))
+    roots = np.unique(comp, return_index=True)[1]
+    keep = np.ones(n_nodes, dtype=bool)
+    keep[roots] = False
+    A = A[np.flatnonzero(keep)]
+    i_p = np.zeros(nb)
+    if tb.size == 0:
+        return i_p, (None if chords.size == 0 else
+                     sp.csc_matrix((np.ones(chords.size), (chords, np.arange(chords.size))),
+                                   shape=(nb, chords.size)))
+    lu = splu(A[:, tb].tocsc())
+    i_p[tb] = lu.solve(s[keep])
+    if chords.size == 0:
+        return i_p, None
+    return i_p, tree_cycles(u, v, n_nodes, tree, chords)
+
+
+def tree_cycles(u: np.ndarray, v: np.ndarray, n: int, tree: np.ndarray,
+                chords: np.ndarray) -> sp.csc_matrix:
+    """Fundamental cycle matrix B (N, c) by walking the spanning forest ``tree`` (mask of
+    branches ``u -> v``): column k is chord k (+1 from its ``u`` to its ``v``) and the
+    tree path back from ``v`` to ``u`` (+1 where a branch is run along its direction),
+    all chords advanced together one level at a time (no dense solve)."""
+    tb = np.flatnonzero(tree)
+    adj = sp.coo_matrix((np.concatenate([tb, tb]) + 1.0,
+                         (np.concatenate([u[tb], v[tb]]), np.concatenate([v[tb], u[tb]]))),
+                        shape=(n, n)).tocsr()
+    parent = np.full(n, -1, dtype=np.int64)
+    pbranch = np.full(n, -1, dtype=np.int64)
+    depth = np.zeros(n, dtype=np.int64)
+    labels = connected_components(adj, directed=False)[1]
+    sizes = np.bincount(labels)
+    _, roots = np.unique(labels, return_index=True)
+    for root in roots[sizes[labels[roots]] > 1]:
+        order, pred = breadth_first_order(adj, int(root), directed=False,
+                                          return_predecessors=True)
+        child = order[1:]
+        parent[child] = pred[child]
+        pbranch[child] = np.rint(np.asarray(adj[pred[child], child]).ravel()).astype(np.int64) - 1
+        for x in child:  # breadth-first: the parent's depth is known first
+            depth[x] = depth[parent[x]] + 1
+    c = chords.size
+    rows, cols, vals = [chords], [np.arange(c)], [np.ones(c)]
+    a, b = v[chords].copy(), u[chords].copy()  # walk v -> lca (upwards), lca -> u (downwards)
+    k = np.arange(c)
+    live = a != b
+    while np.any(live):
+        up_a = live & (depth[a] >= depth[b])
+        up_b = live & ~up_a
+        for side, ends in ((up_a, a), (up_b, b)):
+            idx = np.flatnonzero(side)
+            x = ends[idx]
+            br = pbranch[x]
+            along = (u[br] == x).astype(float) * 2.0 - 1.0  # x -> parent runs along u -> v
+            rows.append(br)
+            cols.append(k[idx])
+            vals.append(along if ends is a else -along)
+            ends[idx] = parent[x]
+        live = a != b
+    return sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                         shape=(len(u), c))
+
+
 def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
             nb: int, chunk: int = 512) -> sp.csc_matrix:
     """Fundamental cycle matrix B (N, c): column k is chord k (+1) and the tree path

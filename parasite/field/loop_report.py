@@ -152,13 +152,28 @@ def dipole_entries(specs: Sequence[Any], results: Sequence[Any], graph: Any, *,
     return out
 
 
-def loop_sections(graph: Any, results: Sequence[Any], L: np.ndarray) -> dict[str, Any]:
+def loop_coupling_matrix_operator(results: Sequence[Any], op: Any) -> CouplingMatrix:
+    """:func:`loop_coupling_matrix` with the inductance as an operator (``op.matvec``)."""
+    from parasite.field.mutual import coupling_matrix_operator
+
+    n = op.shape[0]
+    C = np.vstack([r.segment_currents(n) for r in results]) if results else np.zeros((0, n))
+    if not np.any(C.imag):
+        C = C.real
+    return coupling_matrix_operator(op, C)
+
+
+def loop_sections(graph: Any, results: Sequence[Any], L: np.ndarray | None,
+                  coupling: CouplingMatrix | None = None) -> dict[str, Any]:
     """The report's loop-coupling sections: ``loop_pairs``, ``mutual_limits``,
-    ``pickup`` and ``dipoles`` (lists of JSON-ready dicts, SI)."""
+    ``pickup`` and ``dipoles`` (lists of JSON-ready dicts, SI); ``coupling`` (the
+    loops' coupling matrix, e.g. :func:`loop_coupling_matrix_operator`) instead of
+    the dense ``L``."""
     specs = list(graph.routes.loops)
     if not results:
         return {"loop_pairs": [], "mutual_limits": [], "pickup": [], "dipoles": []}
-    m = loop_coupling_matrix(results, np.asarray(L, dtype=float))
+    m = coupling if coupling is not None else loop_coupling_matrix(
+        results, np.asarray(L, dtype=float))
     return {
         "loop_pairs": pair_entries(results, m),
         "mutual_limits": limit_entries(specs, results, m),

@@ -36,6 +36,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -135,6 +136,36 @@ def coupling_matrix(L: np.ndarray, currents: np.ndarray,
         vals = np.einsum("ij,ji->i", U, _real_product(L, V)).real
         for (a, b), v in zip(wide, vals, strict=True):
             shared[a, b] = shared[b, a] = float(v)
+    return CouplingMatrix(mutual=mutual, quadrature=quad, k=k, shared=shared, flux=mutual - shared)
+
+
+def coupling_matrix_operator(op: Any, currents: np.ndarray,
+                             tolerance: float = CARRY_TOLERANCE) -> CouplingMatrix:
+    """:func:`coupling_matrix` with ``L`` as an operator (``op.matvec``, e.g.
+    :class:`parasite.extract.operator.FastInductance`): one product per loop for
+    the form, and one per pair of loops sharing copper for its shared part
+    (``(conj(i_a) . c_b)^T L (i_b . c_a)``, the products restricted to the masks)."""
+    C = np.atleast_2d(np.asarray(currents))
+    n_seg = op.shape[0]
+    if C.shape[1] != n_seg:
+        raise ParasiteError(
+            f"loop currents have shape {C.shape}, expected (loops, {n_seg}) for {n_seg} segments")
+    LC = np.asarray(op.matvec(C.T))  # (N, n)
+    G = np.conj(C) @ LC
+    mutual, quad = G.real.copy(), G.imag.copy()
+    diag = np.diag(mutual)
+    scale = np.sqrt(np.outer(diag, diag))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k = np.where(scale > 0, mutual / np.where(scale > 0, scale, 1.0), np.nan)
+    carry = carried(C, tolerance)
+    shared = np.zeros_like(mutual)
+    for a in range(C.shape[0]):
+        for b in range(a + 1, C.shape[0]):
+            if not np.any(carry[a] & carry[b]):
+                continue
+            v = np.sum(np.conj(C[a]) * carry[b] * np.asarray(op.matvec(C[b] * carry[a])))
+            shared[a, b] = shared[b, a] = float(np.real(v))
+    shared[np.diag_indices_from(shared)] = diag
     return CouplingMatrix(mutual=mutual, quadrature=quad, k=k, shared=shared, flux=mutual - shared)
 
 
