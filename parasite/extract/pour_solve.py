@@ -31,7 +31,6 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
@@ -103,43 +102,6 @@ def _forest(u: np.ndarray, v: np.ndarray, n: int) -> np.ndarray:
     return mask
 
 
-def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
-                    injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
-    """:func:`port_basis` for any node injection (A entering each node from outside,
-    adding up to 0 on every connected piece): the particular solution ``i_p`` (N,)
-    carried by a breadth-first spanning forest and the sparse fundamental cycle
-    matrix ``B`` (N, c), None without cycles. Every branch current is ``i_p + B m``."""
-    nb = len(node_from)
-    u = np.asarray(node_from, dtype=np.int64)
-    v = np.asarray(node_to, dtype=np.int64)
-    comp = connected_components(sp.coo_matrix((np.ones(nb), (u, v)), shape=(n_nodes, n_nodes)),
-                                directed=False)[1]
-    s = np.asarray(injection, dtype=float)
-    if np.any(np.abs(np.bincount(comp, weights=s)) > 1e-9):
-        raise ExtractionError("the injected currents do not add up to 0 on a piece of copper",
-                              key="ports")
-    tree = _forest(u, v, n_nodes)
-    tb = np.flatnonzero(tree)
-    chords = np.flatnonzero(~tree)
-    A = sp.csc_matrix((np.concatenate([np.ones(nb), -np.ones(nb)]),
-                       (np.concatenate([u, v]), np.concatenate([np.arange(nb)] * 2))),
-                      shape=(n_nodes, nb))
-    roots = np.unique(comp, return_index=True)[1]
-    keep = np.ones(n_nodes, dtype=bool)
-    keep[roots] = False
-    A = A[np.flatnonzero(keep)]
-    i_p = np.zeros(nb)
-    if tb.size == 0:
-        return i_p, (None if chords.size == 0 else
-                     sp.csc_matrix((np.ones(chords.size), (chords, np.arange(chords.size))),
-                                   shape=(nb, chords.size)))
-    lu = splu(A[:, tb].tocsc())
-    i_p[tb] = lu.solve(s[keep])
-    if chords.size == 0:
-        return i_p, None
-    return i_p, tree_cycles(u, v, n_nodes, tree, chords)
-
-
 def tree_cycles(u: np.ndarray, v: np.ndarray, n: int, tree: np.ndarray,
                 chords: np.ndarray) -> sp.csc_matrix:
     """Fundamental cycle matrix B (N, c) by walking the spanning forest ``tree`` (mask of
@@ -186,25 +148,6 @@ def tree_cycles(u: np.ndarray, v: np.ndarray, n: int, tree: np.ndarray,
                          shape=(len(u), c))
 
 
-def _cycles(lu: Any, A: sp.csc_matrix, tb: np.ndarray, chords: np.ndarray,
-            nb: int, chunk: int = 512) -> sp.csc_matrix:
-    """Fundamental cycle matrix B (N, c): column k is chord k (+1) and the tree path
-    that closes it (entries -1, 0, +1, from the tree's incidence solve), built
-    ``chunk`` chords at a time so that the dense temporary stays small."""
-    rows = [chords]
-    cols = [np.arange(chords.size)]
-    vals = [np.ones(chords.size)]
-    for c0 in range(0, chords.size, chunk):
-        part = chords[c0:c0 + chunk]
-        path = -np.rint(lu.solve(A[:, part].toarray()))
-        r, k = np.nonzero(path)
-        rows.append(tb[r])
-        cols.append(k + c0)
-        vals.append(path[r, k])
-    return sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                         shape=(nb, chords.size))
-
-
 def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
                     injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
     """The particular solution ``i_p`` (N,) of Kirchhoff's current law ``A i = s`` for
@@ -236,7 +179,7 @@ def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
         i_p[tb] = lu.solve(injection[keep])
     if chords.size == 0:
         return i_p, None
-    return i_p, _cycles(lu, A, tb, chords, nb)
+    return i_p, tree_cycles(u, v, n_nodes, tree, chords)
 
 
 def port_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, plus: NodeSet,
