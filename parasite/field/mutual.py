@@ -97,6 +97,17 @@ def _real_product(L: np.ndarray, V: np.ndarray) -> np.ndarray:
     return P[:, :m] + 1j * P[:, m:]
 
 
+def _form(G: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Mutual (H), quadrature (H) and coupling coefficient of the loops' form
+    ``G_ab = i_a^H L i_b`` (nan where a loop has no inductance)."""
+    mutual, quad = G.real.copy(), G.imag.copy()
+    diag = np.diag(mutual)
+    scale = np.sqrt(np.outer(diag, diag))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k = np.where(scale > 0, mutual / np.where(scale > 0, scale, 1.0), np.nan)
+    return mutual, quad, k
+
+
 def coupling_matrix(L: np.ndarray, currents: np.ndarray,
                     tolerance: float = CARRY_TOLERANCE) -> CouplingMatrix:
     """Mutual inductance, k and the shared/flux split for every pair of loops.
@@ -111,11 +122,8 @@ def coupling_matrix(L: np.ndarray, currents: np.ndarray,
     _check(L, C)
     n_seg = L.shape[0]
     G = np.conj(C) @ _real_product(L, C.T)  # (n, n): G_ab = i_a^H L i_b
-    mutual, quad = G.real.copy(), G.imag.copy()
+    mutual, quad, k = _form(G)
     diag = np.diag(mutual)
-    scale = np.sqrt(np.outer(diag, diag))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        k = np.where(scale > 0, mutual / np.where(scale > 0, scale, 1.0), np.nan)
     carry = carried(C, tolerance)
     both = carry.astype(np.int64) @ carry.T.astype(np.int64)
     shared = np.zeros_like(mutual)
@@ -152,11 +160,8 @@ def coupling_matrix_operator(op: Any, currents: np.ndarray,
             f"loop currents have shape {C.shape}, expected (loops, {n_seg}) for {n_seg} segments")
     LC = np.asarray(op.matvec(C.T))  # (N, n)
     G = np.conj(C) @ LC
-    mutual, quad = G.real.copy(), G.imag.copy()
+    mutual, quad, k = _form(G)
     diag = np.diag(mutual)
-    scale = np.sqrt(np.outer(diag, diag))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        k = np.where(scale > 0, mutual / np.where(scale > 0, scale, 1.0), np.nan)
     carry = carried(C, tolerance)
     shared = np.zeros_like(mutual)
     for a in range(C.shape[0]):
