@@ -44,8 +44,6 @@ LEFT_OUT = (
      "beyond the sum of their near radii are weak and are not listed"),
     ("loop pair terms", "each loop's pair terms are ranked over the exact near field only"),
 )
-PROBES_LEFT_OUT = ("probes", "the probes' pick-up is computed on the dense path only; run "
-                   "`parasite report --inductance dense` on a coarser mesh")
 
 
 def near_couplings(near: sp.spmatrix, diag: np.ndarray,
@@ -70,6 +68,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
     from parasite.loops_operator import GMRES_RTOL, loop_results_operator
     from parasite.naming import NameAllocator
     from parasite.network.names import node_names
+    from parasite.probes import probe_report
     from parasite.report import add_loop_sections
     from parasite.writer import initial_current_warnings
 
@@ -90,7 +89,9 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
     results = (loop_results_operator(graph, netlist, op, R, frequency=extraction.frequency,
                                      progress=progress) if graph.routes.loops else [])
     loops = [loop_result_dict(r) for r in results]
-    left_out = list(LEFT_OUT) + ([PROBES_LEFT_OUT] if graph.routes.probes else [])
+    probes = (probe_report(graph, op, R, names, results, extraction.frequency)
+              if graph.routes.probes else [])
+    left_out = list(LEFT_OUT)
     summary: dict[str, Any] = {
         "segments": len(graph.segments),
         "branches": 0,
@@ -115,7 +116,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
         "segments": segments,
         "couplings": couplings,
         "loops": loops,
-        "probes": [],
+        "probes": probes,
         "summary": summary,
         "warnings": list(graph.warnings) + initial_current_warnings(
             netlist, set(graph.anchors)),
