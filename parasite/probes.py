@@ -24,8 +24,8 @@ the instrument, through it, and back along the ground lead to the ground
 contact. With ``v`` = +1 on the tip lead's segments, -1 on the ground lead's
 (both leads' segments point from contact to instrument), and ``c`` the
 segment currents of a circuit loop per ampere of its current ``I`` (the
-current division of :mod:`parasite.loops` at the loop's frequency), the leads
-see the mutual inductance ``M = v^T L c`` (H). When the leads carry no
+current division of the loop's own report, :attr:`parasite.loops.LoopResult.currents`,
+at the loop's frequency), the leads see the mutual inductance ``M = v^T L c`` (H). When the leads carry no
 current of their own (a high-impedance input) the reading is
 
     V(tip end) - V(ground end) = V(tip contact) - V(ground contact) - j omega M I,
@@ -41,6 +41,14 @@ of the ring, independent of current and frequency.
 The leads' own loop inductance ``v^T L v`` with the instrument's capacitance
 ``C`` resonates at ``1 / (2 pi sqrt(L C))`` (Thomson's formula): a long
 ground lead rings there on every fast edge, whatever the circuit does.
+
+Both ways of holding ``L`` share :func:`probe_report`: the dense matrix (``augment``,
+``report``) and the inductance operator (``report --inductance fast``,
+:mod:`parasite.report_fast`). ``v^T L v`` comes from the exact dense block of the
+leads' own segments, ``L v`` from one product of the operator with every probe's
+``v`` at once, and ``M = (L v)^T c`` (``L`` is symmetric). On the fast path ``M``
+carries the error of the operator's loop currents to first order (the loop
+inductance, stationary in the currents, carries it to second order): docs/probes.md.
 
 Caution: probing a live power stage is hazardous (high voltage, stored energy,
 large currents); follow local codes and licensed practice. The numbers are

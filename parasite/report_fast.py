@@ -7,14 +7,16 @@ From the operator (:class:`parasite.extract.operator.FastInductance`): the segme
 self inductances (its diagonal), the loops (:mod:`parasite.loops_operator`: GMRES
 with one product per iteration, the iterations per loop), the loops' mutual
 inductances, limits, pick-up and dipoles (one product per loop, one per pair sharing
-copper), the segment couplings of the exact near field.
+copper), the segment couplings of the exact near field, and the probes
+(:func:`parasite.probes.probe_report`, the dense path's function: the leads' loop
+inductance from the exact block of their own segments, the pick-up from one product of
+all the probes' lead vectors and the loops' currents).
 
 Left out (each named in ``inductance.left_out`` and in the text report): the circuit
 model (``branches``, the written couplings, the coupling threshold's choice and the
 reduced model): they are the augmented netlist's, whose elements need the dense matrix
 (``augment`` stays dense); couplings of far pairs (weak: beyond the sum of the near
-radii); the probes' pick-up (it needs the probe leads' dense block per loop, not yet
-moved to the operator).
+radii); the ranking of each loop's pair terms beyond the exact near field.
 
 Estimates from closed-form partial inductances: confirm them by measurement.
 """
