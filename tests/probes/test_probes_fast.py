@@ -99,16 +99,16 @@ def test_fast_probe_entries_against_dense(board: tuple[str, str], tmp_path: Path
         assert a.keys() == b.keys()
         assert {k: a[k] for k in EXACT} == {k: b[k] for k in EXACT}
         for k in LEADS:
-            assert a[k] == pytest.approx(b[k], rel=1e-9), k
+            assert a[k] == pytest.approx(b[k], rel=1e-9, abs=0), k
         assert b["lead_inductance"] > 1e-9  # leads of centimetres: nanohenries
         for pa, pb in zip(a["pickup"], b["pickup"], strict=True):
             assert pa.keys() == pb.keys()
             assert (pa["loop"], pa["frequency"]) == (pb["loop"], pb["frequency"]) == (
                 "load loop", 100e6)
-            assert pa["loop_inductance"] == pytest.approx(pb["loop_inductance"], rel=1e-3)
+            assert pa["loop_inductance"] == pytest.approx(pb["loop_inductance"], rel=1e-3, abs=0)
             assert abs(pb["mutual"]) > 1e-12  # a pick-up to compare, not a zero
             for k in PICKUP:
-                assert pa[k] == pytest.approx(pb[k], rel=PICKUP_RTOL), (a["name"], k)
+                assert pa[k] == pytest.approx(pb[k], rel=PICKUP_RTOL, abs=0), (a["name"], k)
     # the damping resistance and the reading behind it, as on the dense path
     assert f["probes"][1]["plus"] == "probe_span_tip_in"
     text = report_text(f)
@@ -131,9 +131,9 @@ def test_probe_report_with_the_accurate_operator(board: tuple[str, str]) -> None
     assert len(ref) == len(got) == 2
     for a, b in zip(got, ref, strict=True):
         for k in LEADS:
-            assert a[k] == pytest.approx(b[k], rel=1e-9)
+            assert a[k] == pytest.approx(b[k], rel=1e-9, abs=0)
         for pa, pb in zip(a["pickup"], b["pickup"], strict=True):
             for k in PICKUP:
-                assert pa[k] == pytest.approx(pb[k], rel=1e-3)
+                assert pa[k] == pytest.approx(pb[k], rel=1e-3, abs=0)
     m = np.array([p["pickup"][0]["mutual"] for p in ref])
     assert np.all(np.abs(m) > 1e-12)
