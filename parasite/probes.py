@@ -24,9 +24,10 @@ the instrument, through it, and back along the ground lead to the ground
 contact. With ``v`` = +1 on the tip lead's segments, -1 on the ground lead's
 (both leads' segments point from contact to instrument), and ``c`` the
 segment currents of a circuit loop per ampere of its current ``I`` (the
-current division of the loop's own report, :attr:`parasite.loops.LoopResult.currents`,
-at the loop's frequency), the leads see the mutual inductance ``M = v^T L c`` (H). When the leads carry no
-current of their own (a high-impedance input) the reading is
+current division of the loop's own report at the loop's frequency,
+:attr:`parasite.loops.LoopResult.currents`), the leads see the mutual
+inductance ``M = v^T L c`` (H). When the leads carry no current of their own
+(a high-impedance input) the reading is
 
     V(tip end) - V(ground end) = V(tip contact) - V(ground contact) - j omega M I,
 

@@ -93,7 +93,6 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
     loops = [loop_result_dict(r) for r in results]
     probes = (probe_report(graph, op, R, names, results, extraction.frequency)
               if graph.routes.probes else [])
-    left_out = list(LEFT_OUT)
     summary: dict[str, Any] = {
         "segments": len(graph.segments),
         "branches": 0,
@@ -131,7 +130,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
             "near_scale": getattr(op, "near_scale", None),
             "far_field_eps": op.eps,
             "gmres_rtol": GMRES_RTOL,
-            "left_out": [{"what": w, "why": y} for w, y in left_out],
+            "left_out": [{"what": w, "why": y} for w, y in LEFT_OUT],
         },
         "model": {"written": None, "rule": "left out on the fast path: " + LEFT_OUT[0][1]},
     }

@@ -137,3 +137,15 @@ def test_probe_report_with_the_accurate_operator(board: tuple[str, str]) -> None
                 assert pa[k] == pytest.approx(pb[k], rel=1e-3, abs=0)
     m = np.array([p["pickup"][0]["mutual"] for p in ref])
     assert np.all(np.abs(m) > 1e-12)
+
+
+def test_probe_without_loops(tmp_path: Path) -> None:
+    """fixtures/routes/probe_resistor (a probe, no [[loop]]): the fast report gives the
+    leads' values of the dense one (the same exact block) and no pick-up entries."""
+    board = (str(ROUTES / "probe_resistor.cir"), str(ROUTES / "probe_resistor.routes.toml"))
+    d, f = _report(board, tmp_path, "dense"), _report(board, tmp_path, "fast")
+    (a,), (b,) = f["probes"], d["probes"]
+    assert a["pickup"] == b["pickup"] == []
+    assert {k: a[k] for k in EXACT} == {k: b[k] for k in EXACT}
+    for k in LEADS:
+        assert a[k] == pytest.approx(b[k], rel=1e-9, abs=0), k
