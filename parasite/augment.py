@@ -47,6 +47,7 @@ class AugmentResult:
 
 def analyse(network: Network) -> dict[str, Any]:
     """The report of ``network``: its loops, its probes' pick-up, and the summary."""
+    from parasite.extract.operator import DenseInductance
     from parasite.loops import loop_result_dict, loop_results
     from parasite.probes import probe_report
     from parasite.report import build_report, node_labels
@@ -55,7 +56,8 @@ def analyse(network: Network) -> dict[str, Any]:
     graph, netlist = extraction.inputs.graph, extraction.inputs.netlist
     results = loop_results(graph, netlist, extraction.L, extraction.R) if graph.routes.loops else []
     loops = [loop_result_dict(r) for r in results]
-    probe_entries = (probe_report(extraction, node_labels(network), loops)
+    probe_entries = (probe_report(graph, DenseInductance(extraction.L), extraction.R,
+                                  node_labels(network), results, extraction.frequency)
                      if graph.routes.probes else [])
     report = build_report(network, loops, probe_entries)
     if results:

@@ -24,9 +24,10 @@ the instrument, through it, and back along the ground lead to the ground
 contact. With ``v`` = +1 on the tip lead's segments, -1 on the ground lead's
 (both leads' segments point from contact to instrument), and ``c`` the
 segment currents of a circuit loop per ampere of its current ``I`` (the
-current division of :mod:`parasite.loops` at the loop's frequency), the leads
-see the mutual inductance ``M = v^T L c`` (H). When the leads carry no
-current of their own (a high-impedance input) the reading is
+current division of the loop's own report at the loop's frequency,
+:attr:`parasite.loops.LoopResult.currents`), the leads see the mutual
+inductance ``M = v^T L c`` (H). When the leads carry no current of their own
+(a high-impedance input) the reading is
 
     V(tip end) - V(ground end) = V(tip contact) - V(ground contact) - j omega M I,
 
@@ -42,6 +43,14 @@ The leads' own loop inductance ``v^T L v`` with the instrument's capacitance
 ``C`` resonates at ``1 / (2 pi sqrt(L C))`` (Thomson's formula): a long
 ground lead rings there on every fast edge, whatever the circuit does.
 
+Both ways of holding ``L`` share :func:`probe_report`: the dense matrix (``augment``,
+``report``) and the inductance operator (``report --inductance fast``,
+:mod:`parasite.report_fast`). ``v^T L v`` comes from the exact dense block of the
+leads' own segments, ``L v`` from one product of the operator with every probe's
+``v`` at once, and ``M = (L v)^T c`` (``L`` is symmetric). On the fast path ``M``
+carries the error of the operator's loop currents to first order (the loop
+inductance, stationary in the currents, carries it to second order): docs/probes.md.
+
 Caution: probing a live power stage is hazardous (high voltage, stored energy,
 large currents); follow local codes and licensed practice. The numbers are
 estimates from a simplified model, to be confirmed by measurement.
@@ -56,12 +65,13 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from parasite.network.names import reading_plus
-from parasite.network.ports import ProbeNodes, loop_port, probe_nodes
-from parasite.network.solve import solve_port
+from parasite.network.ports import ProbeNodes, probe_nodes
 from parasite.units import engineering
 
 if TYPE_CHECKING:
     from geometry.model import CopperGraph
+    from parasite.extract.operator import InductanceOperator
+    from parasite.loops import LoopResult
 
 
 CAUTION = (
@@ -107,44 +117,53 @@ def _lead_length(graph: CopperGraph, segs: Sequence[int]) -> float:
     return float(sum(graph.segments[s].length for s in segs))
 
 
-def probe_report(extraction: Any, names: dict[int, str],
-                 loops: Sequence[dict[str, Any]]) -> list[dict[str, Any]]:
+def probe_report(graph: CopperGraph, inductance: InductanceOperator, R: np.ndarray,
+                 names: dict[int, str], results: Sequence[LoopResult],
+                 frequency: float | None) -> list[dict[str, Any]]:
     """The report's ``probes`` entries (SI units): the reading's node pair
     (``plus``, ``minus``), the contacts' nets, the instrument, the leads'
     lengths, their loop inductance and its resonance with the instrument's
     capacitance, and per ``[[loop]]`` the mutual inductance ``M`` with the
     leads (module docstring), the pick-up per ampere of loop current at the
-    loop's frequency (``omega |M|``; the extraction's frequency for a loop
-    without one; null when neither is known) and ``|M| / L_loop``.
+    loop's frequency (``omega |M|``; ``frequency``, the run's, for a loop without
+    one; null when neither is known) and ``|M| / L_loop``.
+
+    One function for both ways of holding the partial inductance (H):
+    ``inductance`` is the dense matrix wrapped as
+    :class:`parasite.extract.operator.DenseInductance` (``augment``, ``report``) or
+    the operator :class:`parasite.extract.operator.FastInductance` (``report
+    --inductance fast``). ``R`` (ohm) per segment; ``results``: the loops'
+    :class:`parasite.loops.LoopResult` in the routes file's order, whose
+    ``currents`` (the division of the loop report) give ``c``. The leads' loop
+    inductance ``v^T L v`` is taken from the exact dense block of the leads' own
+    segments; ``L v`` (for every ``M = (L v)^T c``) from one product of all the
+    probes' vectors at once, never an N x N array.
     """
-    inputs = extraction.inputs
-    graph = inputs.graph
-    L = np.asarray(extraction.L, dtype=float)
-    R = np.asarray(extraction.R, dtype=float)
     pns = probe_nodes(graph)
     if not pns:
         return []
-    by_name = {lp["name"]: lp for lp in loops}
-    currents: list[tuple[Any, np.ndarray, float | None]] = []
-    for spec in graph.routes.loops:
-        f = spec.frequency if spec.frequency is not None else extraction.frequency
-        segments, injection, n_nodes = loop_port(spec, graph, inputs.netlist)
-        sol = solve_port(graph.arrays.node_from[segments].astype(np.int64),
-                         graph.arrays.node_to[segments].astype(np.int64), n_nodes, injection,
-                         L[np.ix_(segments, segments)], R[segments], 0.0 if f is None else f)
-        c = np.zeros(len(graph.segments), dtype=complex)
-        c[segments] = sol.currents
-        currents.append((spec, c, f))
+    specs = list(graph.routes.loops)
+    if len(results) != len(specs):
+        raise ValueError(f"{len(results)} loop results for {len(specs)} [[loop]] entries")
+    n = len(graph.segments)
+    V = np.stack([_loop_vector(graph, pn) for pn in pns], axis=1)  # (N, P)
+    M = np.zeros((len(pns), len(specs)), dtype=complex)
+    if specs:
+        C = np.stack([r.segment_currents(n) for r in results], axis=1)  # (N, loops)
+        LV = np.asarray(inductance.matvec(V)).reshape(n, len(pns))
+        M = LV.T @ C  # M[p, l] = v_p^T L c_l (L symmetric)
     out: list[dict[str, Any]] = []
-    for pn in pns:
+    for p, pn in enumerate(pns):
         pr, ins = pn.probe, pn.probe.instrument
-        v = _loop_vector(graph, pn)
-        l_leads = float(v @ L @ v)
-        r_leads = float(R[list(pn.tip_segments) + list(pn.ground_segments)].sum())
+        leads = np.asarray(list(pn.tip_segments) + list(pn.ground_segments), dtype=np.int64)
+        v_leads = V[leads, p]
+        l_leads = float(v_leads @ np.asarray(inductance.block(leads, leads)) @ v_leads)
+        r_leads = float(np.asarray(R, dtype=float)[leads].sum())
         entries = []
-        for spec, c, f in currents:
-            m = complex(v @ (L @ c))
-            l_loop = by_name.get(spec.name, {}).get("inductance")
+        for k, (spec, r) in enumerate(zip(specs, results, strict=True)):
+            f = spec.frequency if spec.frequency is not None else frequency
+            m = complex(M[p, k])
+            l_loop = r.inductance
             entries.append({
                 "loop": spec.name,
                 "frequency": f,

@@ -7,14 +7,16 @@ From the operator (:class:`parasite.extract.operator.FastInductance`): the segme
 self inductances (its diagonal), the loops (:mod:`parasite.loops_operator`: GMRES
 with one product per iteration, the iterations per loop), the loops' mutual
 inductances, limits, pick-up and dipoles (one product per loop, one per pair sharing
-copper), the segment couplings of the exact near field.
+copper), the segment couplings of the exact near field, and the probes
+(:func:`parasite.probes.probe_report`, the dense path's function: the leads' loop
+inductance from the exact block of their own segments, the pick-up from one product of
+all the probes' lead vectors and the loops' currents).
 
 Left out (each named in ``inductance.left_out`` and in the text report): the circuit
 model (``branches``, the written couplings, the coupling threshold's choice and the
 reduced model): they are the augmented netlist's, whose elements need the dense matrix
 (``augment`` stays dense); couplings of far pairs (weak: beyond the sum of the near
-radii); the probes' pick-up (it needs the probe leads' dense block per loop, not yet
-moved to the operator).
+radii); the ranking of each loop's pair terms beyond the exact near field.
 
 Estimates from closed-form partial inductances: confirm them by measurement.
 """
@@ -44,8 +46,6 @@ LEFT_OUT = (
      "beyond the sum of their near radii are weak and are not listed"),
     ("loop pair terms", "each loop's pair terms are ranked over the exact near field only"),
 )
-PROBES_LEFT_OUT = ("probes", "the probes' pick-up is computed on the dense path only; run "
-                   "`parasite report --inductance dense` on a coarser mesh")
 
 
 def near_couplings(near: sp.spmatrix, diag: np.ndarray,
@@ -70,6 +70,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
     from parasite.loops_operator import GMRES_RTOL, loop_results_operator
     from parasite.naming import NameAllocator
     from parasite.network.names import node_names
+    from parasite.probes import probe_report
     from parasite.report import add_loop_sections
     from parasite.writer import initial_current_warnings
 
@@ -90,7 +91,8 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
     results = (loop_results_operator(graph, netlist, op, R, frequency=extraction.frequency,
                                      progress=progress) if graph.routes.loops else [])
     loops = [loop_result_dict(r) for r in results]
-    left_out = list(LEFT_OUT) + ([PROBES_LEFT_OUT] if graph.routes.probes else [])
+    probes = (probe_report(graph, op, R, names, results, extraction.frequency)
+              if graph.routes.probes else [])
     summary: dict[str, Any] = {
         "segments": len(graph.segments),
         "branches": 0,
@@ -115,7 +117,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
         "segments": segments,
         "couplings": couplings,
         "loops": loops,
-        "probes": [],
+        "probes": probes,
         "summary": summary,
         "warnings": list(graph.warnings) + initial_current_warnings(
             netlist, set(graph.anchors)),
@@ -128,7 +130,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
             "near_scale": getattr(op, "near_scale", None),
             "far_field_eps": op.eps,
             "gmres_rtol": GMRES_RTOL,
-            "left_out": [{"what": w, "why": y} for w, y in left_out],
+            "left_out": [{"what": w, "why": y} for w, y in LEFT_OUT],
         },
         "model": {"written": None, "rule": "left out on the fast path: " + LEFT_OUT[0][1]},
     }
