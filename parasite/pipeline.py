@@ -190,13 +190,19 @@ def extract_fast(
     ``progress`` counts the exact near pairs) and the resistances of every segment."""
     from parasite.errors import ExtractionError
     from parasite.extract import resistances
-    from parasite.extract.operator import BOARD_NEAR_SCALE, BOARD_SECTION_RATIO, FastInductance
+    from parasite.extract.operator import (
+        BOARD_EPS,
+        BOARD_NEAR_SCALE,
+        BOARD_SECTION_RATIO,
+        FastInductance,
+    )
 
     arrays = inputs.graph.arrays
     if len(arrays) == 0:
         raise ExtractionError("no copper: the inductance operator needs segments",
                               file=inputs.routes_path)
     op = FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
+                        eps=BOARD_EPS,
                         progress=progress)
     R = resistances(arrays, inputs.routes.copper, frequency)
     check_finite(inputs, op.diagonal(), R)

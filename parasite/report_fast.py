@@ -88,8 +88,10 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
     k_min = DEFAULT_MIN_COUPLING if min_coupling is None else min_coupling
     couplings = [{"a": graph.segments[i].id, "b": graph.segments[j].id, "mutual": m, "k": k}
                  for i, j, m, k in near_couplings(op.near, diag, max(k_min, 1e-12))]
-    results = (loop_results_operator(graph, netlist, op, R, frequency=extraction.frequency,
-                                     progress=progress) if graph.routes.loops else [])
+    # like the dense report: a loop without a frequency is divided at the low-frequency
+    # limit (parasite.loops), whatever --frequency sets for the resistances
+    results = (loop_results_operator(graph, netlist, op, R, progress=progress)
+               if graph.routes.loops else [])
     loops = [loop_result_dict(r) for r in results]
     probes = (probe_report(graph, op, R, names, results, extraction.frequency)
               if graph.routes.probes else [])

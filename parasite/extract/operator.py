@@ -51,6 +51,13 @@ are near below 4.2 lengths apart (the dense path's far rule starts at 3.5); pair
 beyond take the 2-point far-field rule. On the benchmark board (4,456 segments) the
 loop inductances stay within 3e-4 of the dense path with 2.3 times fewer near
 pairs than at 1.0 (2.6e-5 less accurate products: 4.5e-4 relative)."""
+BOARD_EPS = 1e-3
+"""``eps`` of the multipole sums on the same path. Measured on the benchmark board (4,674
+segments): one product within 1.5e-5 of the sums at 1e-10, the loop inductances within
+9e-6 of those at 1e-7, the loop solves 4 times quicker than at 1e-7 (2 at 1e-4):
+well inside the near field's own 3.6e-4 (``BOARD_NEAR_SCALE``) and the 1e-4 asked of a
+product (tests/extract/test_operator.py checks a product at this eps against the dense
+matrix)."""
 GL2 = 0.5 / np.sqrt(3.0)
 """The 2-point Gauss-Legendre nodes on [-1/2, 1/2] are -GL2, +GL2 (weights 1/2)."""
 
@@ -214,51 +221,52 @@ class FastInductance:
             y = y[:, :cols.shape[1]] + 1j * y[:, cols.shape[1]:]
         return y.reshape(x.shape)
 
-    def preconditioner_near(self, k_min: float = 0.0) -> sp.csr_matrix:
-        """The exact near field with the pairs of coupling ``|L_ij| / sqrt(L_ii L_jj)``
-        below ``k_min`` dropped (the diagonal kept): a sparser matrix to factor."""
-        if k_min <= 0:
-            return self.near
-        coo = self.near.tocoo()
-        d = np.sqrt(self._diag)
-        keep = (coo.row == coo.col) | (np.abs(coo.data) >= k_min * d[coo.row] * d[coo.col])
-        return sp.csr_matrix((coo.data[keep], (coo.row[keep], coo.col[keep])), shape=self.shape)
-
     def _far(self, x: np.ndarray) -> np.ndarray:
         """The point-source sum for every entry (direct and symmetrised images), H A,
-        for the real columns of ``x`` (N, m) at once."""
+        for the real columns of ``x`` (N, m) at once.
+
+        One multipole call per direction component ``c`` of the current: the term of a
+        pair is ``d_a . d_b``, so component ``c`` of the sources' vector charges is
+        needed only at the points of segments (and images) whose direction has a
+        component ``c``; on a board of x- and y-directed cells each call has half the
+        points (two calls of N/2 points instead of one of N with twice the densities)."""
         import fmm3dpy
 
         n = self.shape[0]
         k = self._src.size
         m = x.shape[1]
-        xs = np.concatenate([x, x[self._has]])  # (K, m)
-        real = np.zeros(k, bool)
-        real[:n] = True
-        # densities per column: the segments' vector charges (components 0-2) and the
-        # images' (3-5); a component that is 0 everywhere (horizontal copper has no z,
-        # a board without a plane no images) is left out of the multipole call
-        q = 0.5 * self._d[:, None, :] * xs[:, :, None]  # (K, m, 3)
-        live = [c for c in range(3) if np.any(self._d[:n, c])]
-        live += [3 + c for c in range(3) if self._n_img and np.any(self._d[n:, c])]
-        dens = np.zeros((m, len(live), 2 * k))
-        for slot, comp in enumerate(live):
-            mask = real if comp < 3 else ~real
-            qc = np.where(mask[:, None], q[:, :, comp % 3], 0.0).T  # (m, K)
-            dens[:, slot, :k] = qc
-            dens[:, slot, k:] = qc
-        pot6 = np.zeros((m, 6, k))
-        if live:
-            out = fmm3dpy.lfmm3d(eps=self.eps, sources=self._points,
-                                 charges=dens.reshape(len(live) * m, 2 * k), pg=1,
-                                 nd=len(live) * m)
-            pot = np.asarray(out.pot).reshape(m, len(live), 2 * k) * (4.0 * np.pi)  # 1/r
-            pot6[:, live, :] = pot[:, :, :k] + pot[:, :, k:]  # both points of a conductor
-        pot = pot6
-        w = 0.5 * self._d.T  # (3, K), weights 1/2 of the two points
-        direct = np.sum(w[None, :, :n] * pot[:, 0:3, :n], axis=1)  # (m, n)
-        a_term = np.sum(w[None, :, :n] * pot[:, 3:6, :n], axis=1)  # M(i, j') x_j
-        b_img = np.sum(w[None, :, n:] * pot[:, 0:3, n:], axis=1)  # M(i', j) x_j at the images
+        xs = np.concatenate([x, x[self._has]])  # (K, m): each image carries its segment's
+        direct = np.zeros((m, n))
+        a_term = np.zeros((m, n))  # M(i, j') x_j: images' charges at the segments' points
+        b_img = np.zeros((m, k - n))  # M(i', j) x_j: segments' charges at the images' points
+        for comp in range(3):
+            sel = np.flatnonzero(self._d[:, comp] != 0.0)  # conductors (segments, images)
+            if sel.size == 0:
+                continue
+            seg, img = sel[sel < n], sel[sel >= n]
+            pts = np.concatenate([self._points[:, sel], self._points[:, k + sel]], axis=1)
+            q = (0.5 * self._d[sel, comp])[:, None] * xs[sel]  # (s, m) vector charges
+            slots = [(seg.size, 0)] + ([(img.size, 1)] if img.size else [])
+            dens = np.zeros((m, len(slots), 2 * sel.size))
+            is_seg = sel < n
+            for col, (count, slot) in enumerate(slots):
+                if count == 0:
+                    continue
+                mask = is_seg if slot == 0 else ~is_seg
+                qc = np.where(mask[:, None], q, 0.0).T  # (m, s)
+                dens[:, col, :sel.size] = qc
+                dens[:, col, sel.size:] = qc
+            nd = m * len(slots)
+            charges = dens.reshape(nd, 2 * sel.size)
+            out = fmm3dpy.lfmm3d(eps=self.eps, sources=pts, pg=1, nd=nd,
+                                 charges=charges[0] if nd == 1 else charges)
+            pot = np.asarray(out.pot).reshape(m, len(slots), 2 * sel.size) * (4.0 * np.pi)
+            pot = pot[:, :, :sel.size] + pot[:, :, sel.size:]  # both points of a conductor
+            w = 0.5 * self._d[sel, comp]  # weights 1/2 of the two points
+            direct[:, seg] += w[is_seg] * pot[:, 0, is_seg]
+            if img.size:
+                a_term[:, seg] += w[is_seg] * pot[:, 1, is_seg]
+                b_img[:, img - n] += w[~is_seg] * pot[:, 0, ~is_seg]
         b_term = np.zeros((m, n))
         b_term[:, self._has] = b_img
         return (1e-7 * (direct + IMAGE_SIGN * 0.5 * (a_term + b_term))).T
@@ -300,10 +308,6 @@ class SubOperator:
         near = getattr(op, "near", None)
         if near is not None:
             self.near = near[self.idx][:, self.idx].tocsr()
-
-    def preconditioner_near(self, k_min: float = 0.0) -> sp.csr_matrix:
-        """The operator's :meth:`FastInductance.preconditioner_near` on ``idx``."""
-        return self.op.preconditioner_near(k_min)[self.idx][:, self.idx].tocsr()  # type: ignore[attr-defined]
 
     def matvec(self, x: np.ndarray) -> np.ndarray:
         x = np.asarray(x)

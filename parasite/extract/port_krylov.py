@@ -1,20 +1,34 @@
 """A port's impedance with the inductance as an operator: Krylov solve of the cycle
-equations, preconditioned by the near field.
+equations with a constraint preconditioner.
 
 Same equations as :mod:`parasite.extract.pour_solve` (mesh analysis, Desoer & Kuh
 1969): ``B^T Z B m = -B^T Z i_p`` with ``Z = diag(R) + j omega L``, but ``L`` is only
 applied (:class:`parasite.extract.operator.InductanceOperator`), never formed. The
 system is complex symmetric, not Hermitian: GMRES (Saad & Schultz, SIAM J. Sci.
-Stat. Comput. 7(3), 1986; ``scipy.sparse.linalg.gmres``), right-preconditioned by the
-sparse LU of ``B^T (R + j omega S) B`` with ``S`` the operator's exact near field
-(its diagonal when it has none). Stops at ``rtol`` relative residual (default 1e-10).
-SI units: ohm, H, Hz, A.
+Stat. Comput. 7(3), 1986; ``scipy.sparse.linalg.gmres``), right-preconditioned by
+``(B^T Z_P B)^{-1}`` with ``Z_P = diag(R) + j omega P``, applied without forming
+``B^T Z_P B`` (whose fundamental cycles, tree paths, make it nearly dense): the
+saddle-point system ``[Z_P A^T; A 0] [x; phi] = [g; 0]`` with ``g`` the residual on the
+chords (``B^T g`` is the residual; ``B`` is the identity on the chords) gives ``x = B
+m`` in the cycle space, ``m = x[chords]`` (a constraint preconditioner: Keller, Gould
+& Wathen, SIAM J. Matrix Anal. Appl. 21(4), 2000, whose preconditioned matrix has
+the spectrum of the cycle-space one, whatever the cycle basis).
+
+``P``, :data:`PRECONDITIONERS`:
+
+* ``"diagonal"`` (default): ``P = diag(L)``; the saddle point reduces to the nodal
+  equations ``A Z_P^{-1} A^T phi = A Z_P^{-1} g``, a sparse weighted graph Laplacian
+  (fill about that of the copper graph);
+* ``"near"``: ``P`` the operator's exact near field, the saddle point factored whole
+  (sparse LU): fewer iterations, a far larger factor (measured in docs/scale.md).
+
+Stops at ``rtol`` relative residual. SI units: ohm, H, Hz, A.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -23,7 +37,10 @@ from scipy.sparse.linalg import LinearOperator, gmres, splu
 
 from parasite.errors import ExtractionError
 from parasite.extract.operator import InductanceOperator
-from parasite.extract.pour_solve import NodeSet, PortSolution, port_basis
+from parasite.extract.pour_solve import CycleBasis, NodeSet, PortSolution, port_basis
+
+PRECONDITIONERS = ("diagonal", "near")
+"""The preconditioners of :func:`solve_cycles` (module docstring)."""
 
 
 @dataclass(frozen=True)
@@ -37,7 +54,8 @@ class KrylovPortSolution:
 def solve_port_operator(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
                         op: InductanceOperator, R: np.ndarray, frequency: float,
                         plus: NodeSet, minus: NodeSet, shorts: Sequence[NodeSet] = (), *,
-                        rtol: float = 1e-10, maxiter: int = 500) -> KrylovPortSolution:
+                        rtol: float = 1e-10, maxiter: int = 2000,
+                        preconditioner: str = "diagonal") -> KrylovPortSolution:
     """:func:`parasite.extract.pour_solve.solve_port` with ``L`` as an operator, for
     ``frequency`` > 0 Hz (the 0 Hz division is resistive and needs no L)."""
     if not frequency > 0:
@@ -45,52 +63,81 @@ def solve_port_operator(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int
                               key="frequency")
     R = np.asarray(R, dtype=float)
     omega = 2.0 * math.pi * frequency
-    i_p, B = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
-    i, iters = solve_cycles(i_p, B, op, R, omega, rtol=rtol, maxiter=maxiter)
+    basis = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
+    i, iters = solve_cycles(basis, op, R, omega, rtol=rtol, maxiter=maxiter,
+                            preconditioner=preconditioner)
     z = complex(np.sum(np.conj(i) * zmul_full(op, R, omega, i)))
     sol = PortSolution(frequency=float(frequency), impedance=z, inductance=z.imag / omega,
                        resistance=z.real, currents=i)
     return KrylovPortSolution(sol, iters)
 
 
-def solve_cycles(i_p: np.ndarray, B: sp.spmatrix | None, op: InductanceOperator,
-                 R: np.ndarray, omega: float, *, rtol: float = 1e-10,
-                 maxiter: int = 500, precondition_k: float = 0.0) -> tuple[np.ndarray, int]:
-    """Branch currents ``i = i_p + B m`` (A) with ``B^T (R + j omega L) i = 0`` solved by
-    preconditioned GMRES (module docstring), and the GMRES iterations it took;
-    ``omega`` > 0 rad/s. ``precondition_k`` > 0: the preconditioner keeps only the near
-    pairs coupled at least that much (``op.preconditioner_near``; a sparser LU).
-    Raises :class:`ExtractionError` when ``rtol`` is not reached."""
-    R = np.asarray(R, dtype=float)
-    if B is None:
-        return i_p.astype(complex), 0
-    B = B.tocsr()
-    Bt = B.T.tocsr()
-    if precondition_k > 0 and hasattr(op, "preconditioner_near"):
-        near = op.preconditioner_near(precondition_k)
-    else:
+def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.ndarray,
+                              omega: float, preconditioner: str = "diagonal"
+                              ) -> Callable[[np.ndarray], np.ndarray]:
+    """``r -> x`` with ``x = B (B^T Z_P B)^{-1} r`` (N,), the branch currents of the
+    preconditioned cycle correction (module docstring); ``x[chords]`` is the mesh
+    vector."""
+    A = basis.incidence
+    nb, nodes = A.shape[1], A.shape[0]
+    chords = basis.chords
+    if preconditioner == "diagonal":
+        y = 1.0 / (R + 1j * omega * np.asarray(op.diagonal(), dtype=float))  # Z_P^{-1}
+        lu = splu((A @ sp.diags(y) @ A.T).tocsc())
+
+        def apply(r: np.ndarray) -> np.ndarray:
+            g = np.zeros(nb, dtype=complex)
+            g[chords] = r
+            yg = y * g
+            return np.asarray(yg - y * (A.T @ lu.solve(A @ yg)))
+        return apply
+    if preconditioner == "near":
         near = getattr(op, "near", None)
-    if near is None:
-        near = sp.diags(op.diagonal())
-    pre = splu((Bt @ (sp.diags(R) + 1j * omega * near) @ B).tocsc())
+        S = sp.diags(op.diagonal()) if near is None else near
+        K = sp.bmat([[sp.diags(R) + 1j * omega * S, A.T], [A, None]]).tocsc()
+        lu_k = splu(K, permc_spec="COLAMD")
+
+        def apply_k(r: np.ndarray) -> np.ndarray:
+            g = np.zeros(nb + nodes, dtype=complex)
+            g[chords] = r
+            return np.asarray(lu_k.solve(g)[:nb])
+        return apply_k
+    raise ExtractionError(f"unknown preconditioner {preconditioner!r}; one of "
+                          f"{', '.join(PRECONDITIONERS)}", key="preconditioner")
+
+
+def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega: float, *,
+                 rtol: float = 1e-10, maxiter: int = 2000, restart: int = 400,
+                 preconditioner: str = "diagonal") -> tuple[np.ndarray, int]:
+    """Branch currents ``i = i_p + B m`` (A) with ``B^T (R + j omega L) i = 0`` solved by
+    GMRES(``restart``) with the constraint preconditioner (module docstring), and the
+    GMRES iterations it took; ``omega`` > 0 rad/s, ``basis.i_p`` one injection (N,).
+    Raises :class:`ExtractionError` when ``rtol`` is not reached in ``maxiter``."""
+    R = np.asarray(R, dtype=float)
+    i_p = np.asarray(basis.i_p).reshape(-1)
+    if basis.B is None:
+        return i_p.astype(complex), 0
+    Bt = basis.B.T.tocsr()
+    pre = constraint_preconditioner(basis, op, R, omega, preconditioner)
 
     def zmul(v: np.ndarray) -> np.ndarray:
         return R * v + 1j * omega * op.matvec(v)
 
-    c = B.shape[1]
-    A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul(B @ pre.solve(y)), dtype=complex)
+    c = Bt.shape[0]
+    A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul(pre(y)), dtype=complex)
     rhs = -(Bt @ zmul(i_p.astype(complex)))
     count = [0]
 
     def cb(_res: float) -> None:
         count[0] += 1
 
-    y, info = gmres(A, rhs, rtol=rtol, atol=0.0, restart=min(c, 200), maxiter=maxiter,
+    y, info = gmres(A, rhs, rtol=rtol, atol=0.0, restart=min(c, restart),
+                    maxiter=max(1, maxiter // max(1, min(c, restart))),
                     callback=cb, callback_type="pr_norm")
     if info != 0:
         raise ExtractionError(f"the iterative port solve did not reach {rtol:g} in "
                               f"{count[0]} iterations", key="ports")
-    return i_p + B @ pre.solve(y), count[0]
+    return i_p + pre(y), count[0]
 
 
 def zmul_full(op: InductanceOperator, R: np.ndarray, omega: float, v: np.ndarray) -> np.ndarray:

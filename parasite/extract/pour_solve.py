@@ -148,14 +148,25 @@ def tree_cycles(u: np.ndarray, v: np.ndarray, n: int, tree: np.ndarray,
                          shape=(len(u), c))
 
 
-def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
-                    injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
+@dataclass(frozen=True)
+class CycleBasis:
+    """Kirchhoff's laws of a network on a spanning forest (module docstring): every
+    branch current meeting the current law is ``i_p + B m``."""
+
+    i_p: np.ndarray  # (N,) or (N, k) A, the particular solution(s) on the forest
+    B: sp.csc_matrix | None  # (N, c) fundamental cycles; None without cycles
+    chords: np.ndarray  # (c,) the branch of each cycle not in the forest (B[chords] = I)
+    incidence: sp.csc_matrix  # (nodes - components, N) incidence, one node per piece dropped
+
+
+def cycle_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+                injection: np.ndarray) -> CycleBasis:
     """The particular solution ``i_p`` (N,) of Kirchhoff's current law ``A i = s`` for
     the node injections ``s`` (A entering each node from outside; zero sum on every
-    connected piece) on a spanning forest, and the fundamental cycle matrix ``B``
-    (N, c), None without cycles (module docstring): every branch current that meets
-    the law is ``i_p + B m``. ``injection`` (n_nodes, k) gives ``i_p`` (N, k), one
-    column per injection."""
+    connected piece) on a spanning forest, the fundamental cycle matrix ``B`` (N, c),
+    the chords and the reduced incidence ``A`` (module docstring): every branch current
+    that meets the law is ``i_p + B m``. ``injection`` (n_nodes, k) gives ``i_p``
+    (N, k), one column per injection."""
     nb = len(node_from)
     u = np.asarray(node_from, dtype=np.int64)
     v = np.asarray(node_to, dtype=np.int64)
@@ -170,22 +181,26 @@ def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
                                 directed=False)[1]
     keep = np.ones(n_nodes, dtype=bool)
     keep[np.unique(comp, return_index=True)[1]] = False
-    A = A[np.flatnonzero(keep)]
+    A = A[np.flatnonzero(keep)].tocsc()
     injection = np.asarray(injection, dtype=float)
     i_p = np.zeros((nb, *injection.shape[1:]))
-    lu = None
     if tb.size:
-        lu = splu(A[:, tb].tocsc())
-        i_p[tb] = lu.solve(injection[keep])
-    if chords.size == 0:
-        return i_p, None
-    return i_p, tree_cycles(u, v, n_nodes, tree, chords)
+        i_p[tb] = splu(A[:, tb].tocsc()).solve(injection[keep])
+    B = tree_cycles(u, v, n_nodes, tree, chords) if chords.size else None
+    return CycleBasis(i_p, B, chords, A)
+
+
+def injection_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+                    injection: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix | None]:
+    """``(i_p, B)`` of :func:`cycle_basis`: every branch current that meets Kirchhoff's
+    current law for ``injection`` is ``i_p + B m`` (B None without cycles)."""
+    basis = cycle_basis(node_from, node_to, n_nodes, injection)
+    return basis.i_p, basis.B
 
 
 def port_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, plus: NodeSet,
-               minus: NodeSet, shorts: Sequence[NodeSet] = ()
-               ) -> tuple[np.ndarray, sp.csc_matrix | None]:
-    """:func:`injection_basis` for 1 A from ``plus`` to ``minus`` (node sets, each
+               minus: NodeSet, shorts: Sequence[NodeSet] = ()) -> CycleBasis:
+    """:func:`cycle_basis` for 1 A from ``plus`` to ``minus`` (node sets, each
     shorted together, as are ``shorts``)."""
     nb = len(node_from)
     plus_a = np.atleast_1d(np.asarray(plus, dtype=np.int64))
@@ -202,7 +217,7 @@ def port_basis(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, plus: N
         raise ExtractionError("no copper joins the port's two contacts", key="ports")
     s = np.zeros(n)
     s[p], s[m] = 1.0, -1.0
-    return injection_basis(u, v, n, s)
+    return cycle_basis(u, v, n, s)
 
 
 def cycle_currents(i_p: np.ndarray, B: sp.csc_matrix | None, L: np.ndarray, R: np.ndarray,
@@ -242,9 +257,9 @@ def solve_port(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, L: np.n
     if L.shape != (nb, nb) or R.shape != (nb,):
         raise ExtractionError(f"L must be ({nb}, {nb}) and R ({nb},); got {L.shape}, {R.shape}",
                               key="segments")
-    i_p, B = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
+    basis = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
     omega = 2.0 * math.pi * frequency
-    i = cycle_currents(i_p, B, L, R, omega)
+    i = cycle_currents(basis.i_p, basis.B, L, R, omega)
     Li = L @ i
     if omega > 0:
         z = complex(np.sum(np.conj(i) * (R * i + 1j * omega * Li)))
