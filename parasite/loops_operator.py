@@ -31,11 +31,10 @@ from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.linalg import splu
 
 from geometry.model import CopperGraph
 from parasite.extract.operator import InductanceOperator, SubOperator
-from parasite.extract.port_krylov import solve_cycles
+from parasite.extract.port_krylov import resistive_division, solve_cycles
 from parasite.extract.pour_solve import cycle_basis
 from parasite.loops import (
     DEFAULT_TOP_PAIRS,
@@ -59,14 +58,6 @@ whole near field: 19 iterations but 9.4 M entries; the near pairs with |k| >= 0.
 (the previous choice): 199 iterations (a truncated near field is a poor model of
 ``L``: it drops the positive coupling of the many weak pairs)."""
 PAIR_SCOPE = "exact near field only: pairs within the sum of their near radii"
-
-
-def resistive_division(i_p: np.ndarray, B: sp.spmatrix | None, R: np.ndarray) -> np.ndarray:
-    """The 0 Hz current division ``i = i_p + B m`` with ``B^T R B m = -B^T R i_p`` (A)."""
-    if B is None:
-        return i_p
-    BtR = (B.T @ sp.diags(R)).tocsr()
-    return np.asarray(i_p + B @ splu((BtR @ B).tocsc()).solve(-(BtR @ i_p)))
 
 
 def near_pair_terms(near: sp.spmatrix, currents: np.ndarray, count: int, *,

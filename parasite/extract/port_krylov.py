@@ -56,20 +56,33 @@ def solve_port_operator(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int
                         plus: NodeSet, minus: NodeSet, shorts: Sequence[NodeSet] = (), *,
                         rtol: float = 1e-10, maxiter: int = 2000,
                         preconditioner: str = "diagonal") -> KrylovPortSolution:
-    """:func:`parasite.extract.pour_solve.solve_port` with ``L`` as an operator, for
-    ``frequency`` > 0 Hz (the 0 Hz division is resistive and needs no L)."""
-    if not frequency > 0:
-        raise ExtractionError(f"the iterative solve needs a frequency > 0 Hz; got {frequency!r}",
-                              key="frequency")
+    """:func:`parasite.extract.pour_solve.solve_port` with ``L`` as an operator: at
+    ``frequency`` > 0 Hz by :func:`solve_cycles`; at 0 Hz the division is resistive
+    (:func:`resistive_division`, no iterations) and ``L = i^T L i`` (one product)."""
+    if not frequency >= 0:
+        raise ExtractionError(f"frequency must be >= 0 Hz; got {frequency!r}", key="frequency")
     R = np.asarray(R, dtype=float)
-    omega = 2.0 * math.pi * frequency
     basis = port_basis(node_from, node_to, n_nodes, plus, minus, shorts)
+    if frequency == 0:
+        i0 = resistive_division(basis.i_p.reshape(-1), basis.B, R)
+        ind, res = float(i0 @ op.matvec(i0)), float(i0 @ (R * i0))
+        return KrylovPortSolution(PortSolution(frequency=0.0, impedance=complex(res),
+                                               inductance=ind, resistance=res, currents=i0), 0)
+    omega = 2.0 * math.pi * frequency
     i, iters = solve_cycles(basis, op, R, omega, rtol=rtol, maxiter=maxiter,
                             preconditioner=preconditioner)
     z = complex(np.sum(np.conj(i) * zmul_full(op, R, omega, i)))
     sol = PortSolution(frequency=float(frequency), impedance=z, inductance=z.imag / omega,
                        resistance=z.real, currents=i)
     return KrylovPortSolution(sol, iters)
+
+
+def resistive_division(i_p: np.ndarray, B: sp.spmatrix | None, R: np.ndarray) -> np.ndarray:
+    """The 0 Hz current division ``i = i_p + B m`` with ``B^T R B m = -B^T R i_p`` (A)."""
+    if B is None:
+        return i_p
+    BtR = (B.T @ sp.diags(R)).tocsr()
+    return np.asarray(i_p + B @ splu((BtR @ B).tocsc()).solve(-(BtR @ i_p)))
 
 
 def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.ndarray,
