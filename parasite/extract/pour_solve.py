@@ -88,14 +88,14 @@ def _forest(u: np.ndarray, v: np.ndarray, n: int) -> np.ndarray:
     key = lo[live] * n + hi[live]
     order = np.argsort(key, kind="stable")
     skey = key[order]
-    for comp in range(n_comp):
-        members = np.flatnonzero(labels == comp)
-        if members.size < 2:
-            continue
+    by_comp = np.argsort(labels, kind="stable")
+    starts = np.searchsorted(labels[by_comp], np.arange(n_comp + 1))
+    for comp in np.flatnonzero(np.diff(starts) >= 2):  # pieces of one node have no branch
+        members = by_comp[starts[comp]:starts[comp + 1]]
         root = int(members[np.argmax(degree[members])])
         nodes, pred = breadth_first_order(adj, root, directed=False, return_predecessors=True)
-        child = nodes[1:]
-        parent = pred[child]
+        child = nodes[1:].astype(np.int64)  # int64: child * n overflows int32 past 46,340 nodes
+        parent = pred[child].astype(np.int64)
         k = np.minimum(child, parent) * n + np.maximum(child, parent)
         pos = np.searchsorted(skey, k)  # the first branch of each node pair
         mask[live[order[pos]]] = True
