@@ -134,8 +134,11 @@ def loop_results_operator(
             mag2 = np.abs(i) ** 2
             self_t = sub.diagonal() * mag2
             inductance, resistance = float(terms.sum()), float(R_seg @ mag2)
-            near = getattr(sub, "near", None)
-            pair_idx = ([] if near is None else near_pair_terms(near, i, top_pairs))
+            # pair terms over the whole board's near field (no copy of its loop block):
+            # only the loop's segments carry current
+            near = getattr(op, "near", None)
+            pair_idx = ([] if near is None else near_pair_terms(
+                near, _all_currents(len(graph.segments), segments, i), top_pairs))
         carrying = np.flatnonzero(np.abs(i) > 1e-12)
         order = carrying[np.lexsort((carrying, -np.abs(terms[carrying])))]
         ids = [graph.segments[int(s)].id for s in segments]
@@ -148,7 +151,8 @@ def loop_results_operator(
             name=spec.name, inductance=total, resistance=resistance, frequency=f,
             limit=spec.limit, within_limit=within,
             contributors=tuple((ids[k], float(terms[k])) for k in order),
-            pair_contributors=tuple((ids[a], ids[b], t) for a, b, t in pair_idx),
+            pair_contributors=tuple((graph.segments[a].id, graph.segments[b].id, t)
+                                    for a, b, t in pair_idx),
             index=spec.index, line=spec.line,
             self_terms=tuple((ids[k], float(self_t[k])) for k in order),
             pours=pour_uses(graph, segments, np.asarray(i), np.asarray(terms)),

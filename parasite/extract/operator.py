@@ -27,7 +27,7 @@ against the dense one, docs/scale.md). SI units: m, H.
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Protocol
+from typing import Any, Protocol
 
 import numpy as np
 import scipy.sparse as sp
@@ -305,9 +305,16 @@ class SubOperator:
         self.op = op
         self.idx = np.asarray(idx, dtype=np.int64)
         self.shape = (self.idx.size, self.idx.size)
-        near = getattr(op, "near", None)
-        if near is not None:
-            self.near = near[self.idx][:, self.idx].tocsr()
+        self._near: sp.csr_matrix | None = None
+
+    def __getattr__(self, name: str) -> Any:
+        # ``near`` (the operator's exact near field on ``idx``), only when the operator
+        # has one, copied on first use only: the loop solves do not need it
+        if name == "near" and getattr(self.op, "near", None) is not None:
+            if self._near is None:
+                self._near = self.op.near[self.idx][:, self.idx].tocsr()  # type: ignore[attr-defined]
+            return self._near
+        raise AttributeError(name)
 
     def matvec(self, x: np.ndarray) -> np.ndarray:
         x = np.asarray(x)
