@@ -14,7 +14,10 @@ Two implementations of one interface (:class:`InductanceOperator`):
   quadrature points of every segment, images included. Pairs whose horizontal
   midpoint distance is below the sum of their near radii get their exact entry (the same
   formulas as the dense path, :mod:`parasite.extract.kernels`) and the far-field
-  sum's own value for them is subtracted: ``L x = S x + F x - S_F x``.
+  sum's own value for them is subtracted: ``L x = S x + F x - S_F x``. ``S`` is built
+  block by block of rows (:mod:`parasite.extract.near_field`; the blocks run through
+  :func:`parasite.schedule.run_map`, in process or on a Dask cluster, same bytes) and
+  held as a full symmetric CSR matrix; ``S - S_F`` shares its index arrays.
 
 The near radius of a segment of length l and section size h is
 ``max(3.5 l, l + section_ratio h)``; beyond the sum of two radii a pair is far by the dense path's
