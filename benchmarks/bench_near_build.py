@@ -109,7 +109,8 @@ def _build(arrays, how: str):  # noqa: ANN001, ANN202
 
 def _held(op) -> int:  # noqa: ANN001
     """Bytes of the near field and the correction (shared arrays counted once)."""
-    arrays = {id(a): a.nbytes for m in (op.near, op._corr) for a in (m.data, m.indices, m.indptr)}
+    arrays = {a.__array_interface__["data"][0]: a.nbytes
+              for m in (op.near, op._corr) for a in (m.data, m.indices, m.indptr)}
     return int(sum(arrays.values()))
 
 

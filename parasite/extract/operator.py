@@ -59,9 +59,10 @@ dense path (benchmarks/bench_board_scale.py, tests/loops/test_loops_operator.py)
 BOARD_NEAR_SCALE = 0.6
 """``near_scale`` of the same path: the near radii times 0.6, so that two equal cells
 are near below 4.2 lengths apart (the dense path's far rule starts at 3.5); pairs
-beyond take the 2-point far-field rule. On the benchmark board (4,456 segments) the
-loop inductances stay within 3e-4 of the dense path with 2.3 times fewer near
-pairs than at 1.0 (2.6e-5 less accurate products: 4.5e-4 relative)."""
+beyond take the 2-point far-field rule. On the benchmark board (4,674 segments,
+0.87 M near pairs within the sum of the radii) the loop inductances stay within
+3.6e-4 of the dense path and one product within 7.5e-4 (benchmarks/RESULTS.md,
+"The near field built block by block")."""
 GL2 = 0.5 / np.sqrt(3.0)
 """The 2-point Gauss-Legendre nodes on [-1/2, 1/2] are -GL2, +GL2 (weights 1/2)."""
 
