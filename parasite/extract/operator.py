@@ -227,9 +227,11 @@ class FastInductance:
             dens[:, slot, k:] = qc
         pot6 = np.zeros((m, 6, k))
         if live:
+            nd = len(live) * m
+            charges = dens.reshape(nd, 2 * k)
+            # one density: fmm3dpy wants the charges as (2 K,), not (1, 2 K)
             out = fmm3dpy.lfmm3d(eps=self.eps, sources=self._points,
-                                 charges=dens.reshape(len(live) * m, 2 * k), pg=1,
-                                 nd=len(live) * m)
+                                 charges=charges[0] if nd == 1 else charges, pg=1, nd=nd)
             pot = np.asarray(out.pot).reshape(m, len(live), 2 * k) * (4.0 * np.pi)  # 1/r
             pot6[:, live, :] = pot[:, :, :k] + pot[:, :, k:]  # both points of a conductor
         pot = pot6
