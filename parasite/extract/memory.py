@@ -21,9 +21,9 @@ preconditioner; 4.38 M pairs by the near rule counted now). With the block-built
 near field (pairs within the sum of the near radii, 40 bytes held per pair, about 52
 at the build's peak) the measured peaks are 775 MiB at 4,674 segments (0.87 M pairs)
 and at least 1,398 MiB at 12,445 (2.57 M pairs; the run stopped after 38 min in its
-loop solves): 209 and 265 bytes per pair above the base and the per-segment term. The per-pair figure grows with N (the loop solves'
-sparse LU), so the constants stay the upper figures until a 20,000-segment run of
-the present code is measured.
+loop solves): 209 and 265 bytes per pair above the base and the per-segment term.
+The per-pair figure grows with N (the loop solves' sparse LU), so the constants stay
+the upper figures until a 20,000-segment run of the present code is measured.
 """
 
 from __future__ import annotations
