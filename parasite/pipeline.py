@@ -187,7 +187,7 @@ def extract_fast(
     progress: Callable[[int, int], None] | None = None,
 ) -> FastExtraction:
     """The inductance operator (:class:`parasite.extract.operator.FastInductance`;
-    ``progress`` counts the exact near pairs) and the resistances of every segment."""
+    ``progress`` counts the near field's rows done) and the resistances of every segment."""
     from parasite.errors import ExtractionError
     from parasite.extract import resistances
     from parasite.extract.operator import (

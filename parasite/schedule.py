@@ -82,6 +82,15 @@ def run_map(func: Callable[[T], R], items: Iterable[T], *,
         return _on_client(client, task, work)
 
 
+def runs_here(scheduler: str | Any | None = None) -> bool:
+    """Whether :func:`run_map` with this ``scheduler`` argument runs in this process."""
+    if scheduler is None:
+        scheduler = _ACTIVE.get()
+    if scheduler is not None and not isinstance(scheduler, str):
+        return False
+    return scheduler_address(scheduler) is None
+
+
 def _in_process(func: Callable[[T], R], work: list[T], threads: bool) -> list[R]:
     from threadpoolctl import threadpool_limits
 

@@ -145,9 +145,10 @@ def loop_progress(quiet: bool) -> Any:
 
 
 def near_progress(quiet: bool) -> Any:
-    """A progress callback for the fast path's exact near pairs."""
+    """A progress callback for the fast path's exact near field (segments whose rows
+    are done)."""
     if quiet:
         return None
     from parasite.progress import progress_reporter
 
-    return progress_reporter(False, label="near pairs")
+    return progress_reporter(False, label="near-field rows")

@@ -15,8 +15,15 @@ loop solves' sparse preconditioner) and with the segments (the copper graph, the
 multipole sums' points and tree). :func:`fast_bytes` estimates it as
 ``FAST_BYTES_BASE`` (the interpreter, the compiled kernels and the libraries) plus
 ``FAST_BYTES_PER_PAIR`` per near pair plus ``FAST_BYTES_PER_SEGMENT`` per segment
-(figures from ``benchmarks/bench_board_scale.py``, rounded up: 891 MiB peak at 4,674
-segments and 1.2 M near pairs, 4,291 MiB at 22,013 segments and about 4.5 M pairs).
+(figures from ``benchmarks/bench_board_scale.py``, rounded up: 4,291 MiB at 22,013
+segments, measured before the near field was built by blocks, with a stronger
+preconditioner; 4.38 M pairs by the near rule counted now). With the block-built
+near field (pairs within the sum of the near radii, 40 bytes held per pair, about 52
+at the build's peak) the measured peaks are 775 MiB at 4,674 segments (0.87 M pairs)
+and at least 1,398 MiB at 12,445 (2.57 M pairs; the run stopped after 38 min in its
+loop solves): 209 and 265 bytes per pair above the base and the per-segment term.
+The per-pair figure grows with N (the loop solves' sparse LU), so the constants stay
+the upper figures until a 20,000-segment run of the present code is measured.
 """
 
 from __future__ import annotations

@@ -14,7 +14,10 @@ Two implementations of one interface (:class:`InductanceOperator`):
   quadrature points of every segment, images included. Pairs whose horizontal
   midpoint distance is below the sum of their near radii get their exact entry (the same
   formulas as the dense path, :mod:`parasite.extract.kernels`) and the far-field
-  sum's own value for them is subtracted: ``L x = S x + F x - S_F x``.
+  sum's own value for them is subtracted: ``L x = S x + F x - S_F x``. ``S`` is built
+  block by block of rows (:mod:`parasite.extract.near_field`; the blocks run through
+  :func:`parasite.schedule.run_map`, in process or on a Dask cluster, same bytes) and
+  held as a full symmetric CSR matrix; ``S - S_F`` shares its index arrays.
 
 The near radius of a segment of length l and section size h is
 ``max(3.5 l, l + section_ratio h)``; beyond the sum of two radii a pair is far by the dense path's
@@ -37,8 +40,16 @@ from geometry.model import SegmentArrays
 from parasite.errors import ExtractionError
 from parasite.extract import kernels
 from parasite.extract.images import IMAGE_SIGN
-from parasite.extract.matrix import inductance_matrix, near_values, tables
-from parasite.extract.pairs import _Conductors
+from parasite.extract.matrix import inductance_matrix, tables
+from parasite.extract.near_field import (
+    BLOCK_ROWS,
+    NearBlock,
+    NearPairs,
+    assemble,
+    entries,
+    row_blocks,
+)
+from parasite.schedule import run_map, runs_here
 
 BOARD_SECTION_RATIO = 3.0
 """``section_ratio`` of the fast path of ``report`` and ``check``: a pour cell's section is
@@ -48,9 +59,10 @@ dense path (benchmarks/bench_board_scale.py, tests/loops/test_loops_operator.py)
 BOARD_NEAR_SCALE = 0.6
 """``near_scale`` of the same path: the near radii times 0.6, so that two equal cells
 are near below 4.2 lengths apart (the dense path's far rule starts at 3.5); pairs
-beyond take the 2-point far-field rule. On the benchmark board (4,456 segments) the
-loop inductances stay within 3e-4 of the dense path with 2.3 times fewer near
-pairs than at 1.0 (2.6e-5 less accurate products: 4.5e-4 relative)."""
+beyond take the 2-point far-field rule. On the benchmark board (4,674 segments,
+0.87 M near pairs within the sum of the radii) the loop inductances stay within
+3.6e-4 of the dense path and one product within 7.5e-4 (benchmarks/RESULTS.md,
+"The near field built block by block")."""
 BOARD_EPS = 1e-3
 """``eps`` of the multipole sums on the same path. Measured on the benchmark board (4,674
 segments): one product within 1.5e-5 of the sums at 1e-10, the loop inductances within
@@ -106,53 +118,14 @@ class DenseInductance:
         return self.L[np.ix_(rows, cols)]
 
 
-def entries(c: _Conductors, img: np.ndarray, mz: np.ndarray, ii: np.ndarray,
-            jj: np.ndarray) -> np.ndarray:
-    """Exact L[ii[k], jj[k]] for pairs with ii != jj (H), by the dense path's formulas."""
-    ii = np.ascontiguousarray(ii, dtype=np.int64)
-    jj = np.ascontiguousarray(jj, dtype=np.int64)
-    counts = kernels.count_near_pairs(ii, jj, img, mz, c.u, c.mid, c.length, c.size)
-    offsets = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
-    pa = np.empty(int(offsets[-1]), dtype=np.int64)
-    pb = np.empty_like(pa)
-    kernels.list_near_pairs(ii, jj, img, mz, c.u, c.mid, c.length, c.size, offsets, pa, pb)
-    near = near_values(c, pa, pb)
-    out = np.empty(ii.size)
-    kernels.fill_pairs(ii, jj, out, img, mz, IMAGE_SIGN, c.u, c.mid, c.d, c.length, c.size,
-                       c.w_dir, c.t_dir, c.width, c.thickness, offsets, near)
-    return out
-
-
-def _near_pairs(xy: np.ndarray, radius: np.ndarray,
-                chunk: int = 2048) -> tuple[np.ndarray, np.ndarray]:
-    """Pairs i < j whose horizontal midpoint distance is below radius_i + radius_j (a
-    superset of them: each segment's ball of twice its radius, found by a k-d tree),
-    searched ``chunk`` segments at a time so that the tree's lists stay small."""
-    from scipy.spatial import cKDTree
-
-    n = len(xy)
-    tree = cKDTree(xy)
-    keys = []
-    for r0 in range(0, n, chunk):
-        r1 = min(n, r0 + chunk)
-        hits = tree.query_ball_point(xy[r0:r1], 2.0 * radius[r0:r1], return_sorted=False)
-        counts = np.fromiter((len(h) for h in hits), dtype=np.int64, count=len(hits))
-        jj = np.fromiter((j for h in hits for j in h), dtype=np.int64, count=int(counts.sum()))
-        ii = np.repeat(np.arange(r0, r1, dtype=np.int64), counts)
-        a, b = np.minimum(ii, jj), np.maximum(ii, jj)
-        keep = a < b
-        keys.append(a[keep] * n + b[keep])
-    key = np.unique(np.concatenate(keys)) if keys else np.zeros(0, np.int64)
-    return key // n, key % n
-
-
 class FastInductance:
     """Near field exact and sparse, far field by the fast multipole method (module
     docstring). ``eps``: the requested relative precision of the far-field sums."""
 
     def __init__(self, arrays: SegmentArrays, *, section_ratio: float = 10.0,
                  eps: float = 1e-7, progress: Callable[[int, int], None] | None = None,
-                 chunk: int = 200_000, near_scale: float = 1.0) -> None:
+                 near_scale: float = 1.0, block_rows: int = BLOCK_ROWS,
+                 scheduler: str | Any | None = None) -> None:
         c, img, mz, diag = tables(arrays)
         n = len(arrays)
         self.shape = (n, n)
@@ -163,24 +136,23 @@ class FastInductance:
                                          c.length[:n] + section_ratio * c.size[:n])
         self.near_radius = radius
         self.near_scale = near_scale
-        ii, jj = _near_pairs(c.mid[:n, :2], radius)
-        # exact near entries, ``chunk`` pairs at a time (bounded temporaries, progress)
-        exact = np.empty(ii.size)
-        for p0 in range(0, ii.size, chunk):
-            p1 = min(ii.size, p0 + chunk)
-            exact[p0:p1] = entries(c, img, mz, ii[p0:p1], jj[p0:p1])
+        # the near field block by block of rows (parasite.extract.near_field), in this
+        # process or on the Dask cluster of ``scheduler`` (parasite.schedule)
+        task = NearBlock(c, img, mz, NearPairs(c.mid[:n, :2], radius))
+        blocks = row_blocks(n, block_rows)
+        if progress is not None and runs_here(scheduler):
+            pieces = []
+            for b in blocks:
+                pieces += run_map(task, [b], scheduler=scheduler)
+                progress(b[1], n)
+        else:
+            pieces = run_map(task, blocks, scheduler=scheduler)
             if progress is not None:
-                progress(p1, ii.size)
+                progress(n, n)
+        del task
         diag_idx = np.arange(n, dtype=np.int64)
-        f_off = kernels.two_point_entries(ii, jj, img, IMAGE_SIGN, c.mid, c.d)
         f_diag = kernels.two_point_entries(diag_idx, diag_idx, img, IMAGE_SIGN, c.mid, c.d)
-        rows = np.concatenate([ii, jj, diag_idx])
-        cols = np.concatenate([jj, ii, diag_idx])
-        self.near = sp.csr_matrix((np.concatenate([exact, exact, diag]), (rows, cols)),
-                                  shape=(n, n))
-        corr = sp.csr_matrix((np.concatenate([exact - f_off, exact - f_off, diag - f_diag]),
-                              (rows, cols)), shape=(n, n))
-        self._corr = corr
+        self.near, self._corr = assemble(pieces, n, diag, f_diag)
         # quadrature points: segments, then their images (2 per conductor)
         has = img >= 0
         self._src = np.concatenate([np.flatnonzero(np.ones(n, bool)), img[has]])
@@ -276,7 +248,7 @@ def near_radius(arrays: SegmentArrays, section_ratio: float = 10.0,
                 near_scale: float = 1.0) -> np.ndarray:
     """The near radius of every segment (m): ``near_scale max(3.5 l, l + section_ratio h)``
     (module docstring), from the segment arrays alone (h: the larger of width and
-    thickness, the section size of a bar)."""
+    thickness, the section size of a bar; 2 radius for a round conductor)."""
     length = np.linalg.norm(arrays.end - arrays.start, axis=1)
     size = np.maximum(arrays.width, arrays.thickness)
     return near_scale * np.maximum(3.5 * length, length + section_ratio * size)
@@ -284,17 +256,13 @@ def near_radius(arrays: SegmentArrays, section_ratio: float = 10.0,
 
 def count_near_pairs(arrays: SegmentArrays, section_ratio: float = 10.0,
                      near_scale: float = 1.0) -> int:
-    """About how many pairs ``i < j`` :class:`FastInductance` would store as exact near
-    entries (the same k-d tree search, counted without listing them)."""
-    from scipy.spatial import cKDTree
-
+    """How many pairs ``i < j`` :class:`FastInductance` stores as exact near entries
+    (the same search, counted without evaluating them)."""
     n = len(arrays)
     if n == 0:
         return 0
     xy = 0.5 * (arrays.start + arrays.end)[:, :2]
-    radius = near_radius(arrays, section_ratio, near_scale)
-    counts = cKDTree(xy).query_ball_point(xy, 2.0 * radius, return_length=True)
-    return int((np.sum(counts) - n) // 2)
+    return NearPairs(xy, near_radius(arrays, section_ratio, near_scale)).count()
 
 
 class SubOperator:
