@@ -15,15 +15,14 @@ loop solves' sparse preconditioner) and with the segments (the copper graph, the
 multipole sums' points and tree). :func:`fast_bytes` estimates it as
 ``FAST_BYTES_BASE`` (the interpreter, the compiled kernels and the libraries) plus
 ``FAST_BYTES_PER_PAIR`` per near pair plus ``FAST_BYTES_PER_SEGMENT`` per segment
-(figures from ``benchmarks/bench_board_scale.py``, rounded up: 4,291 MiB at 22,013
-segments, measured before the near field was built by blocks, with a stronger
-preconditioner; 4.38 M pairs by the near rule counted now). With the block-built
-near field (pairs within the sum of the near radii, 40 bytes held per pair, about 52
-at the build's peak) the measured peaks are 775 MiB at 4,674 segments (0.87 M pairs)
-and at least 1,398 MiB at 12,445 (2.57 M pairs; the run stopped after 38 min in its
-loop solves): 209 and 265 bytes per pair above the base and the per-segment term.
-The per-pair figure grows with N (the loop solves' sparse LU), so the constants stay
-the upper figures until a 20,000-segment run of the present code is measured.
+(figures from ``benchmarks/bench_board_scale.py``, rounded up). Measured end to end
+on the invented meshed power stage (near field built by blocks: 40 bytes held per pair,
+about 52 at the build's peak; loops by GMRES with the diagonal constraint
+preconditioner): 1,422 MiB at 22,013 segments (4.38 M near pairs) and 4,609 MiB at
+98,547 (17.77 M). Above the base and 52 bytes per pair that is 35 and 37 kB per
+segment (the copper graph's objects, the report's entries, the multipole sums'
+trees and the GMRES basis), so the constants are 64 bytes per pair and 40 kB per
+segment: estimates of 1,620 and 5,345 MiB for those runs.
 """
 
 from __future__ import annotations
@@ -67,10 +66,11 @@ def dense_bytes(n: int) -> float:
 
 FAST_BYTES_BASE = 512.0 * 2**20
 """Bytes of a fast-path run before any board-sized array (measured about 300 MB)."""
-FAST_BYTES_PER_PAIR = 800.0
-"""Peak bytes per exact near pair on the fast path (measured, rounded up)."""
-FAST_BYTES_PER_SEGMENT = 20_000.0
-"""Peak bytes per segment on the fast path besides the near pairs (measured, rounded up)."""
+FAST_BYTES_PER_PAIR = 64.0
+"""Peak bytes per exact near pair on the fast path (measured 52, rounded up)."""
+FAST_BYTES_PER_SEGMENT = 40_000.0
+"""Peak bytes per segment on the fast path besides the near pairs (measured 35-37 kB,
+rounded up)."""
 
 
 def fast_bytes(n: int, near_pairs: int) -> float:
