@@ -107,3 +107,26 @@ def test_unreachable_scheduler_is_a_clear_error(tmp_path: Path, command: str) ->
                                     "-o", str(out), "-q"])
     assert bad.exit_code == EXIT_INPUT_ERROR and "tcp://HOST:PORT" in bad.output
     assert not out.exists()
+
+
+def test_fast_report_on_a_local_cluster_gives_the_same_bytes(tmp_path: Path,
+                                                             monkeypatch: pytest.MonkeyPatch
+                                                             ) -> None:
+    """``report --inductance fast`` (fixtures/routes/pour_plane: a trace over a meshed
+    pour) with its near field's blocks of rows computed on a LocalCluster of two worker
+    processes is byte-identical to the in-process run, and the blocks did run there."""
+    distributed = pytest.importorskip("distributed")
+    cir = str(ROOT / "fixtures" / "routes" / "pour_plane.cir")
+    rt = str(ROOT / "fixtures" / "routes" / "pour_plane.routes.toml")
+    monkeypatch.delenv(ENV, raising=False)
+    (tmp_path / "here").mkdir()
+    (tmp_path / "there").mkdir()
+    here = _report(cir, rt, tmp_path / "here", "--inductance", "fast")
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  dashboard_address=None) as cluster:
+        there = _report(cir, rt, tmp_path / "there", "--inductance", "fast", "--scheduler",
+                        cluster.scheduler_address)
+        ran = {str(k) for k in cluster.scheduler.task_prefixes}
+    assert "apply" in ran
+    assert json.loads(here)["inductance"]["method"] == "fast"
+    assert there == here
