@@ -18,11 +18,12 @@ multipole sums' points and tree). :func:`fast_bytes` estimates it as
 (figures from ``benchmarks/bench_board_scale.py``, rounded up). Measured end to end
 on the invented meshed power stage (near field built by blocks: 40 bytes held per pair,
 about 52 at the build's peak; loops by GMRES with the diagonal constraint
-preconditioner): 1,422 MiB at 22,013 segments (4.38 M near pairs) and 4,609 MiB at
-98,547 (17.77 M). Above the base and 52 bytes per pair that is 35 and 37 kB per
-segment (the copper graph's objects, the report's entries, the multipole sums'
-trees and the GMRES basis), so the constants are 64 bytes per pair and 40 kB per
-segment: estimates of 1,620 and 5,345 MiB for those runs.
+preconditioner), near radii x0.6: 1,422 MiB at 22,013 segments (4.38 M near pairs)
+and 4,609 MiB at 98,547 (17.77 M); above the base and 52 bytes per pair that is 35
+and 37 kB per segment (the copper graph's objects, the report's entries, the
+multipole sums' trees and the GMRES basis). So the constants are 64 bytes per pair
+and 40 kB per segment; at near radii x0.7 (the board's setting) the runs measured
+1,446 and 4,921 MiB (5.81 M and 23.76 M pairs) against estimates of 1,706 and 5,721.
 """
 
 from __future__ import annotations

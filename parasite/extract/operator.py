@@ -56,13 +56,14 @@ BOARD_SECTION_RATIO = 3.0
 as wide as it is long, so the default 10 makes nearly every pair of a meshed board near;
 at 3 the loop inductances of the benchmark's meshed power stage stay within 1e-4 of the
 dense path (benchmarks/bench_board_scale.py, tests/loops/test_loops_operator.py)."""
-BOARD_NEAR_SCALE = 0.6
-"""``near_scale`` of the same path: the near radii times 0.6, so that two equal cells
-are near below 4.2 lengths apart (the dense path's far rule starts at 3.5); pairs
-beyond take the 2-point far-field rule. On the benchmark board (4,674 segments,
-0.87 M near pairs within the sum of the radii) the loop inductances stay within
-3.6e-4 of the dense path and one product within 7.5e-4 (benchmarks/RESULTS.md,
-"The near field built block by block")."""
+BOARD_NEAR_SCALE = 0.7
+"""``near_scale`` of the same path: the near radii times 0.7, so that two equal cells
+are near below 4.9 lengths apart (the dense path's far rule starts at 3.5); pairs
+beyond take the 2-point far-field rule without its section correction. At 0.6 (4,674
+segments, 0.87 M near pairs within the sum of the radii) the loop inductances stayed
+within 3.6e-4 of the dense path, but a probe's pick-up, first order in the loop's
+currents, was 2.8e-3 off on fixtures/routes/pour_plane; at 0.7 8.4e-4 (0.8: 6.2e-4),
+for about 1.36 times the near pairs (benchmarks/RESULTS.md)."""
 BOARD_EPS = 1e-3
 """``eps`` of the multipole sums on the same path. Measured on the benchmark board (4,674
 segments): one product within 1.5e-5 of the sums at 1e-10, the loop inductances within
