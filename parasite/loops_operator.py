@@ -92,9 +92,11 @@ def loop_results_operator(
     rtol: float = GMRES_RTOL,
     preconditioner: str = PRECONDITIONER,
     progress: Callable[[int, int], None] | None = None,
+    status: Callable[[str], None] | None = None,
 ) -> list[LoopResult]:
     """:func:`parasite.loops.loop_results` with ``op`` (N x N, H) applied, never
-    formed (module docstring); ``progress(done, total)`` after each loop's solve.
+    formed (module docstring); ``progress(done, total)`` after each loop's solve,
+    ``status(text)`` after each GMRES iteration (the loop, the iteration, the residual).
     Each result's ``solver`` says how it was solved (GMRES iterations, tolerance,
     the scope of the pair terms)."""
     R = np.asarray(R, dtype=float)
@@ -106,6 +108,8 @@ def loop_results_operator(
 
     specs = list(graph.routes.loops)
     results = []
+    if progress is not None:
+        progress(0, len(specs))
     for done, spec in enumerate(specs):
         f = spec.frequency if spec.frequency is not None else frequency
         f = 0.0 if f is None else float(f)
@@ -125,8 +129,13 @@ def loop_results_operator(
                                 graph.arrays.node_to[segments].astype(np.int64),
                                 n_nodes, injection)
             if f > 0:
+                def iteration(k: int, res: float, name: str = spec.name) -> None:
+                    if status is not None:
+                        status(f"{name}: GMRES iteration {k}, residual {res:.1e} "
+                               f"(stops at {rtol:.0e})")
+
                 i, iters = solve_cycles(basis, sub, R_seg, 2.0 * math.pi * f, rtol=rtol,
-                                        preconditioner=preconditioner)
+                                        preconditioner=preconditioner, iteration=iteration)
             else:
                 i = resistive_division(basis.i_p.reshape(-1), basis.B, R_seg)
             Li = sub.matvec(i)

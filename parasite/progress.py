@@ -40,23 +40,37 @@ class ProgressLine:
         self.started = clock()
         self._last_draw: float | None = None
         self._width = 0
+        self._counts: tuple[int, int] = (0, 0)
+        self._status = ""
 
     @property
     def shown(self) -> bool:
         return self._last_draw is not None
 
     def __call__(self, done: int, total: int) -> None:
+        self._counts = (done, total)
+        self._draw(finished=total > 0 and done >= total)
+
+    def status(self, text: str) -> None:
+        """Show ``text`` after the count (what the current item is doing: a long
+        solve's iterations), redrawn under the same delay and interval."""
+        self._status = text
+        self._draw(finished=False)
+
+    def _draw(self, *, finished: bool) -> None:
         now = self.clock()
         if now - self.started < self.delay:
             return
-        finished = total > 0 and done >= total
         if finished:  # the work is done: erase the line rather than leave it
             self.close()
             return
         if self._last_draw is not None and now - self._last_draw < self.interval:
             return
+        done, total = self._counts
         percent = f" ({100.0 * done / total:.0f}%)" if total > 0 else ""
         text = f"{self.label}: {done:,} of {total:,}{percent}"
+        if self._status:
+            text += f"; {self._status}"
         pad = " " * max(0, self._width - len(text))
         self.stream.write("\r" + text + pad)
         self.stream.flush()

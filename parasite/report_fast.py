@@ -62,9 +62,10 @@ def near_couplings(near: sp.spmatrix, diag: np.ndarray,
 
 
 def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = None,
-                 progress: Callable[[int, int], None] | None = None) -> dict[str, Any]:
+                 progress: Callable[[int, int], None] | None = None,
+                 status: Callable[[str], None] | None = None) -> dict[str, Any]:
     """The report dict of a fast-path extraction (module docstring); ``progress`` after
-    each loop's solve."""
+    each loop's solve, ``status`` after each GMRES iteration."""
     from parasite.field.loop_report import loop_coupling_matrix_operator, loop_sections
     from parasite.loops import loop_result_dict
     from parasite.loops_operator import GMRES_RTOL, loop_results_operator
@@ -90,7 +91,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
                  for i, j, m, k in near_couplings(op.near, diag, max(k_min, 1e-12))]
     # like the dense report: a loop without a frequency is divided at the low-frequency
     # limit (parasite.loops), whatever --frequency sets for the resistances
-    results = (loop_results_operator(graph, netlist, op, R, progress=progress)
+    results = (loop_results_operator(graph, netlist, op, R, progress=progress, status=status)
                if graph.routes.loops else [])
     loops = [loop_result_dict(r) for r in results]
     probes = (probe_report(graph, op, R, names, results, extraction.frequency)

@@ -109,8 +109,10 @@ def _fast_results(inputs: object, quiet: bool) -> tuple[list, list[dict]]:
     try:
         fast = extract_fast(inputs, progress=near_progress(quiet))  # type: ignore[arg-type]
         graph = fast.inputs.graph
+        line = loop_progress(quiet)
         results = loop_results_operator(graph, fast.inputs.netlist, fast.op, fast.R,
-                                        progress=loop_progress(quiet))
+                                        progress=line,
+                                        status=None if line is None else line.status)
         specs = list(graph.routes.loops)
         limits = (limit_entries(specs, results, loop_coupling_matrix_operator(results, fast.op))
                   if any(s.mutual for s in specs) else [])

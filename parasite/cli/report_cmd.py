@@ -61,8 +61,9 @@ def report(netlist: str, routes: str, fmt: str, table: str, output: str,
 
         try:
             fast = extract_fast(inputs, frequency=frequency, progress=near_progress(quiet))
-            report_dict = analyse_fast(fast, min_coupling=min_coupling,
-                                       progress=loop_progress(quiet))
+            line = loop_progress(quiet)
+            report_dict = analyse_fast(fast, min_coupling=min_coupling, progress=line,
+                                       status=None if line is None else line.status)
         except ParasiteError as exc:
             if exc.file is None:  # the copper is the routes file's: name it
                 exc.file = inputs.routes_path

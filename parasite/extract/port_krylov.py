@@ -121,11 +121,15 @@ def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.n
 
 def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega: float, *,
                  rtol: float = 1e-10, maxiter: int = 2000, restart: int = 400,
-                 preconditioner: str = "diagonal") -> tuple[np.ndarray, int]:
+                 preconditioner: str = "diagonal",
+                 iteration: Callable[[int, float], None] | None = None
+                 ) -> tuple[np.ndarray, int]:
     """Branch currents ``i = i_p + B m`` (A) with ``B^T (R + j omega L) i = 0`` solved by
     GMRES(``restart``) with the constraint preconditioner (module docstring), and the
     GMRES iterations it took; ``omega`` > 0 rad/s, ``basis.i_p`` one injection (N,).
-    Raises :class:`ExtractionError` when ``rtol`` is not reached in ``maxiter``."""
+    ``iteration(k, residual)`` after each iteration (the relative residual of the
+    preconditioned system). Raises :class:`ExtractionError` when ``rtol`` is not
+    reached in ``maxiter``."""
     R = np.asarray(R, dtype=float)
     i_p = np.asarray(basis.i_p).reshape(-1)
     if basis.B is None:
@@ -141,8 +145,10 @@ def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega
     rhs = -(Bt @ zmul(i_p.astype(complex)))
     count = [0]
 
-    def cb(_res: float) -> None:
+    def cb(res: float) -> None:
         count[0] += 1
+        if iteration is not None:
+            iteration(count[0], float(res))
 
     y, info = gmres(A, rhs, rtol=rtol, atol=0.0, restart=min(c, restart),
                     maxiter=max(1, maxiter // max(1, min(c, restart))),

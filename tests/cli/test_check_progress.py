@@ -57,3 +57,22 @@ def test_close_without_drawing_writes_nothing():
     with ProgressLine(out, clock=Clock()) as line:
         line(1, 2)
     assert out.getvalue() == ""
+
+
+def test_status_follows_the_count_and_goes_with_the_line():
+    """A long item's status (a loop's GMRES iterations) is shown after the count, under
+    the same delay and interval, and erased with the line when the work is done."""
+    out, clock = io.StringIO(), Clock()
+    line = ProgressLine(out, label="loops solved", clock=clock, delay=1.0, interval=0.2)
+    line(0, 3)
+    clock.t = 1.2
+    line.status("hot loop: GMRES iteration 7, residual 3.0e-03 (stops at 1e-06)")
+    assert out.getvalue().endswith(
+        "loops solved: 0 of 3 (0%); hot loop: GMRES iteration 7, residual 3.0e-03 "
+        "(stops at 1e-06)")
+    clock.t = 1.25  # within the redraw interval: skipped
+    line.status("hot loop: GMRES iteration 8")
+    assert "iteration 8" not in out.getvalue()
+    clock.t = 1.6
+    line(3, 3)  # done: erased
+    assert out.getvalue().endswith("\r")
