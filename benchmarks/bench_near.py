@@ -28,8 +28,7 @@ from bench_extract import generated_board  # noqa: E402
 
 from geometry.mesh import mesh_polygon  # noqa: E402
 from geometry.model import SegmentArrays  # noqa: E402
-from parasite.extract import kernels  # noqa: E402
-from parasite.extract.matrix import near_values, near_values_numpy, tables  # noqa: E402
+from parasite.extract.matrix import listed_near, near_values, near_values_numpy, tables  # noqa: E402
 from parasite.extract.pairs import _Conductors  # noqa: E402
 
 
@@ -44,12 +43,7 @@ def pour_arrays(side: float = 50e-3, cell: float = 1e-3) -> SegmentArrays:
 def listed(arrays: SegmentArrays) -> tuple[_Conductors, np.ndarray, np.ndarray]:
     """The conductor table and the near pairs the compiled loops list for a board."""
     c, img, mz, _diag = tables(arrays)
-    n = len(arrays)
-    counts = kernels.count_near(0, n, n, img, mz, c.u, c.mid, c.length, c.size)
-    offsets = np.concatenate([[0], np.cumsum(counts)])
-    pa = np.empty(int(offsets[-1]), dtype=np.int64)
-    pb = np.empty_like(pa)
-    kernels.list_near(0, n, n, img, mz, c.u, c.mid, c.length, c.size, offsets, pa, pb)
+    _offsets, pa, pb = listed_near(c, img, mz, 0, len(arrays), len(arrays))
     return c, pa, pb
 
 

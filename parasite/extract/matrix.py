@@ -167,15 +167,23 @@ def _row_chunks(n: int) -> list[tuple[int, int]]:
     return out
 
 
-def _fill_chunk(L: np.ndarray, c: _Conductors, r0: int, r1: int, img: np.ndarray,
-                mz: np.ndarray) -> int:
-    """L[i, j] for j > i and rows r0..r1-1; returns the number of pairs done."""
-    n = L.shape[0]
+def listed_near(c: _Conductors, img: np.ndarray, mz: np.ndarray, r0: int, r1: int,
+                n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The near conductor pairs of rows r0..r1-1 (j > i) as the compiled loops list
+    them: per-row offsets (r1 - r0 + 1,) and the pairs' conductors ``pa``, ``pb``."""
     counts = kernels.count_near(r0, r1, n, img, mz, c.u, c.mid, c.length, c.size)
     offsets = np.concatenate([[0], np.cumsum(counts)])
     pa = np.empty(int(offsets[-1]), dtype=np.int64)
     pb = np.empty_like(pa)
     kernels.list_near(r0, r1, n, img, mz, c.u, c.mid, c.length, c.size, offsets, pa, pb)
+    return offsets, pa, pb
+
+
+def _fill_chunk(L: np.ndarray, c: _Conductors, r0: int, r1: int, img: np.ndarray,
+                mz: np.ndarray) -> int:
+    """L[i, j] for j > i and rows r0..r1-1; returns the number of pairs done."""
+    n = L.shape[0]
+    offsets, pa, pb = listed_near(c, img, mz, r0, r1, n)
     near = near_values(c, pa, pb)
     kernels.fill_rows(L, r0, r1, img, mz, IMAGE_SIGN, c.u, c.mid, c.d, c.length, c.size,
                       c.w_dir, c.t_dir, c.width, c.thickness, offsets, near)

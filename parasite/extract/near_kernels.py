@@ -365,31 +365,29 @@ def _cross_section_sum(x: float, yd: np.ndarray, zd: np.ndarray, fy: np.ndarray,
     return acc
 
 
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _offset_moments(d: float, s1: float, s2: float) -> tuple[float, float, float]:
+    """E[x^2], E[x^4], E[x^6] of ``x = d + u1 - u2`` with u1, u2 uniform over widths
+    ``s1``, ``s2`` (m^2, m^4, m^6): the even moments the series of
+    :func:`_bars_near` needs, per transverse axis."""
+    a2, b2 = s1 * s1, s2 * s2
+    e2a, e2b = a2 / 12, b2 / 12
+    e4a, e4b = a2 * a2 / 80, b2 * b2 / 80
+    e6a, e6b = a2 * a2 * a2 / 448, b2 * b2 * b2 / 448
+    m2, m4 = e2a + e2b, e4a + 6 * e2a * e2b + e4b
+    m6 = e6a + 15 * e4a * e2b + 15 * e2a * e4b + e6b
+    d2 = d * d
+    return (d2 + m2, d2 * d2 + 6 * d2 * m2 + m4,
+            d2 * d2 * d2 + 15 * d2 * d2 * m2 + 15 * d2 * m4 + m6)
+
+
 @nb.njit(cache=True, error_model="numpy")
 def _bars_near(a0: float, a1: float, b0: float, b1: float, dy: float, dz: float, w1: float,
                t1: float, w2: float, t2: float) -> float:
     """:func:`parasite.extract.bars.parallel_bars_near` of one pair (H)."""
     area = w1 * t1 * w2 * t2
-    a2, b2 = w1 * w1, w2 * w2
-    e2a, e2b = a2 / 12, b2 / 12
-    e4a, e4b = a2 * a2 / 80, b2 * b2 / 80
-    e6a, e6b = a2 * a2 * a2 / 448, b2 * b2 * b2 / 448
-    my2, my4 = e2a + e2b, e4a + 6 * e2a * e2b + e4b
-    my6 = e6a + 15 * e4a * e2b + 15 * e2a * e4b + e6b
-    a2, b2 = t1 * t1, t2 * t2
-    e2a, e2b = a2 / 12, b2 / 12
-    e4a, e4b = a2 * a2 / 80, b2 * b2 / 80
-    e6a, e6b = a2 * a2 * a2 / 448, b2 * b2 * b2 / 448
-    mz2, mz4 = e2a + e2b, e4a + 6 * e2a * e2b + e4b
-    mz6 = e6a + 15 * e4a * e2b + 15 * e2a * e4b + e6b
-    d2 = dy * dy
-    y2 = d2 + my2
-    y4 = d2 * d2 + 6 * d2 * my2 + my4
-    y6 = d2 * d2 * d2 + 15 * d2 * d2 * my2 + 15 * d2 * my4 + my6
-    d2 = dz * dz
-    z2 = d2 + mz2
-    z4 = d2 * d2 + 6 * d2 * mz2 + mz4
-    z6 = d2 * d2 * d2 + 15 * d2 * d2 * mz2 + 15 * d2 * mz4 + mz6
+    y2, y4, y6 = _offset_moments(dy, w1, w2)
+    z2, z4, z6 = _offset_moments(dz, t1, t2)
     r2 = y2 + z2
     r4 = y4 + 2 * y2 * z2 + z4
     r6 = y6 + 3 * y4 * z2 + 3 * y2 * z4 + z6

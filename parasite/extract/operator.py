@@ -276,14 +276,17 @@ class SubOperator:
         self.shape = (self.idx.size, self.idx.size)
         self._near: sp.csr_matrix | None = None
 
-    def __getattr__(self, name: str) -> Any:
-        # ``near`` (the operator's exact near field on ``idx``), only when the operator
-        # has one, copied on first use only: the loop solves do not need it
-        if name == "near" and getattr(self.op, "near", None) is not None:
-            if self._near is None:
-                self._near = self.op.near[self.idx][:, self.idx].tocsr()  # type: ignore[attr-defined]
-            return self._near
-        raise AttributeError(name)
+    @property
+    def near(self) -> sp.csr_matrix:
+        """The operator's exact near field on ``idx`` (H), copied on first use only (the
+        loop solves do not need it); AttributeError when the operator has none, so that
+        ``getattr(sub, "near", None)`` reads as for the operator itself."""
+        whole = getattr(self.op, "near", None)
+        if whole is None:
+            raise AttributeError("near")
+        if self._near is None:
+            self._near = whole[self.idx][:, self.idx].tocsr()
+        return self._near
 
     def matvec(self, x: np.ndarray) -> np.ndarray:
         x = np.asarray(x)

@@ -137,12 +137,10 @@ def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega
     Bt = basis.B.T.tocsr()
     pre = constraint_preconditioner(basis, op, R, omega, preconditioner)
 
-    def zmul(v: np.ndarray) -> np.ndarray:
-        return R * v + 1j * omega * op.matvec(v)
-
     c = Bt.shape[0]
-    A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul(pre(y)), dtype=complex)
-    rhs = -(Bt @ zmul(i_p.astype(complex)))
+    A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul_full(op, R, omega, pre(y)),
+                       dtype=complex)
+    rhs = -(Bt @ zmul_full(op, R, omega, i_p.astype(complex)))
     count = [0]
 
     def cb(res: float) -> None:

@@ -25,10 +25,10 @@ import numpy as np
 import pytest
 
 from geometry.model import SegmentArrays
-from parasite.extract import kernels, near_kernels
+from parasite.extract import near_kernels
 from parasite.extract.bars import FAR_RATIO, SERIES_RATIO
 from parasite.extract.filaments import MU0_4PI, corner_differences
-from parasite.extract.matrix import near_values, near_values_numpy, tables
+from parasite.extract.matrix import listed_near, near_values, near_values_numpy, tables
 from parasite.extract.pairs import (
     FAR_RULES,
     FAR_SECTION_RATIO,
@@ -141,11 +141,7 @@ def _listed(arrays: SegmentArrays) -> tuple[_Conductors, np.ndarray, np.ndarray,
     self inductance of the segment behind each conductor (images: their segment's)."""
     c, img, mz, diag = tables(arrays)
     n = len(arrays)
-    counts = kernels.count_near(0, n, n, img, mz, c.u, c.mid, c.length, c.size)
-    offsets = np.concatenate([[0], np.cumsum(counts)])
-    pa = np.empty(int(offsets[-1]), dtype=np.int64)
-    pb = np.empty_like(pa)
-    kernels.list_near(0, n, n, img, mz, c.u, c.mid, c.length, c.size, offsets, pa, pb)
+    _offsets, pa, pb = listed_near(c, img, mz, 0, n, n)
     owner = np.concatenate([np.arange(n), np.flatnonzero(img >= 0)])
     return c, pa, pb, np.abs(diag)[owner]
 
