@@ -23,7 +23,7 @@ from parasite.network.branches import Branch
 
 if TYPE_CHECKING:
     from parasite.network.ladders import BroadbandOptions
-    from parasite.pipeline import Extraction, Inputs
+    from parasite.pipeline import Extraction, FastExtraction, Inputs
 
 AugmentOptions = NetworkOptions
 """The options of one run (``min_coupling``, ``keep_segments``, ``loop_tolerance``)."""
@@ -49,10 +49,12 @@ def analyse(network: Network) -> dict[str, Any]:
     """The report of ``network``: its loops, its probes' pick-up, and the summary."""
     from parasite.extract.operator import DenseInductance
     from parasite.loops import loop_result_dict, loop_results
+    from parasite.pipeline import Extraction
     from parasite.probes import probe_report
     from parasite.report import build_report, node_labels
 
     extraction = network.extraction
+    assert isinstance(extraction, Extraction), "the dense path's report"
     graph, netlist = extraction.inputs.graph, extraction.inputs.netlist
     results = loop_results(graph, netlist, extraction.L, extraction.R) if graph.routes.loops else []
     loops = [loop_result_dict(r) for r in results]
@@ -100,20 +102,78 @@ def augment(extraction: Extraction, options: AugmentOptions | None = None,
                          written.inductor_names, network)
 
 
+def augment_fast(extraction: FastExtraction, options: AugmentOptions | None = None,
+                 model: str = "auto", *, progress: Any = None, status: Any = None,
+                 scheduler: Any = None) -> AugmentResult:
+    """The augmented netlist and report of a fast-path extraction (the inductance as an
+    operator, :func:`parasite.pipeline.extract_fast`): the report of
+    :func:`parasite.report_fast.analyse_fast`, and the copper written as its reduced
+    model (:mod:`parasite.network.reduce_operator`); the full model, every branch and its
+    couplings, needs the dense matrix and is refused (``model`` ``full``).
+    ``progress(done, total)`` after each loop's solve, ``status(text)`` during the solves."""
+    from parasite.errors import ExtractionError
+    from parasite.network import build_fast_network
+    from parasite.network.reduce_choice import fast_reduction_report, reduce_fast
+    from parasite.report import reduced_summary
+    from parasite.report_fast import LEFT_OUT, analyse_fast
+    from parasite.writer import write_netlist
+
+    options = options or AugmentOptions()
+    if model == "full":
+        raise ExtractionError(
+            "the full model (every branch and its couplings) needs the dense inductance "
+            "matrix, and this board is held as the operator: write the reduced model "
+            "(--model reduced or auto), or coarsen the mesh for --inductance dense",
+            file=extraction.inputs.routes_path)
+    network = build_fast_network(extraction, options)
+    report = analyse_fast(extraction, min_coupling=options.min_coupling, progress=progress,
+                          status=status)
+    report["summary"]["branches"] = len(network.branches)
+    reduction = None
+    if network.branches:
+        reduction, found = reduce_fast(network, scheduler=scheduler, status=status)
+        report["model"] = fast_reduction_report(
+            reduction, found, "the fast path writes the reduced model (the full one needs "
+            "the dense matrix)")
+        reduced_summary(report["summary"], reduction)
+        report["summary"]["sparsification_note"] = "reduced model"
+        report["inductance"]["left_out"] = [{"what": w, "why": y} for w, y in LEFT_OUT[1:]]
+        if not reduction.acceptable:
+            m = reduction.model
+            report["warnings"].append(
+                f"the reduced model is {m.max_error:.2e} from the full network (tolerance "
+                f"{m.tolerance:g}) after {len(found.steps)} exact solves"
+                + ("" if reduction.passive else ", and is not passive as written")
+                + ": check it against --inductance dense on a coarser mesh")
+    written = write_netlist(network, None, reduction)
+    return AugmentResult(written.netlist_bytes, report, network.node_names, network.branches,
+                         written.inductor_names, network)
+
+
 def augment_inputs(inputs: Inputs, *, min_coupling: float | None = None,
                    frequency: float | None = None, keep_segments: bool = False,
                    progress: Any = None, broadband: BroadbandOptions | None = None,
-                   model: str = "auto") -> AugmentResult:
-    """Extract and augment inputs already read (:mod:`parasite.pipeline`); an error of
-    the copper that names no file names the routes file."""
-    from parasite.errors import ParasiteError
-    from parasite.pipeline import extract
+                   model: str = "auto", status: Any = None,
+                   scheduler: Any = None) -> AugmentResult:
+    """Extract and augment inputs already read (:mod:`parasite.pipeline`), on the dense
+    path or, for inputs read with ``inductance`` ``fast``, the operator's
+    (:func:`augment_fast`; ``progress`` then counts the near field's rows, and the loops
+    through ``status``); an error of the copper that names no file names the routes file."""
+    from parasite.errors import ExtractionError, ParasiteError
+    from parasite.pipeline import extract, extract_fast
 
     try:
+        options = AugmentOptions(min_coupling=min_coupling, keep_segments=keep_segments)
+        if inputs.inductance == "fast":
+            if broadband is not None:
+                raise ExtractionError(
+                    "broadband ladders are fitted per branch of the full model, which the "
+                    "fast path does not write: use --inductance dense (coarsen the mesh)",
+                    file=inputs.routes_path)
+            fast = extract_fast(inputs, frequency=frequency, progress=progress)
+            return augment_fast(fast, options, model, status=status, scheduler=scheduler)
         extraction = extract(inputs, frequency=frequency, progress=progress)
-        return augment(extraction, AugmentOptions(min_coupling=min_coupling,
-                                                  keep_segments=keep_segments), broadband,
-                       model)
+        return augment(extraction, options, broadband, model)
     except ParasiteError as exc:
         if exc.file is None:  # the copper is the routes file's: name it
             exc.file = inputs.routes_path
@@ -123,14 +183,17 @@ def augment_inputs(inputs: Inputs, *, min_coupling: float | None = None,
 def augment_files(netlist_path: str, routes_path: str, *, min_coupling: float | None = None,
                   frequency: float | None = None, keep_segments: bool = False,
                   progress: Any = None, broadband: BroadbandOptions | None = None,
-                  model: str = "auto") -> AugmentResult:
+                  model: str = "auto", inductance: str = "dense", status: Any = None,
+                  scheduler: Any = None) -> AugmentResult:
     """Read, extract and augment in one call (the library side of ``parasite augment``);
-    ``netlist_path`` ``-`` reads standard input."""
+    ``netlist_path`` ``-`` reads standard input; ``inductance`` ``dense``, ``fast`` or
+    ``auto`` (:func:`parasite.pipeline.check_size`)."""
     from parasite.pipeline import load_inputs
 
-    return augment_inputs(load_inputs(netlist_path, routes_path), min_coupling=min_coupling,
-                          frequency=frequency, keep_segments=keep_segments, progress=progress,
-                          broadband=broadband, model=model)
+    return augment_inputs(load_inputs(netlist_path, routes_path, inductance),
+                          min_coupling=min_coupling, frequency=frequency,
+                          keep_segments=keep_segments, progress=progress, broadband=broadband,
+                          model=model, status=status, scheduler=scheduler)
 
 
 def augment_text(netlist: str | bytes, routes: str | bytes, *,

@@ -94,6 +94,19 @@ def build_report(network: Any, loops: list[dict[str, Any]],
     }
 
 
+def reduced_summary(summary: dict[str, Any], reduction: Any) -> None:
+    """The summary's figures of a written reduced model (a
+    :class:`parasite.network.reduce_choice.Reduction`): its couplings, passivity as
+    written."""
+    r = reduction.realisation
+    summary.update({
+        "couplings_written": int((r.k != 0).sum()) // 2, "couplings_dropped": 0,
+        "min_coupling": 0.0,
+        "min_coupling_rule": "reduced model: every coupling of its inductors is written",
+        "passive": bool(reduction.passive), "min_eigenvalue": _num(r.min_eig_L),
+    })
+
+
 def set_written_summary(report: dict[str, Any], network: Any, reduction: Any = None) -> None:
     """The report's couplings and the summary's figures of what is written: the
     reduced model's when ``reduction`` (a
@@ -108,13 +121,7 @@ def set_written_summary(report: dict[str, Any], network: Any, reduction: Any = N
     summary = report["summary"]
     graph, L = network.graph, network.extraction.L
     if reduction is not None:
-        r = reduction.realisation
-        summary.update({
-            "couplings_written": int((r.k != 0).sum()) // 2, "couplings_dropped": 0,
-            "min_coupling": 0.0,
-            "min_coupling_rule": "reduced model: every coupling of its inductors is written",
-            "passive": bool(reduction.passive), "min_eigenvalue": _num(r.min_eig_L),
-        })
+        reduced_summary(summary, reduction)
         listed = FALLBACK
     else:
         selection, threshold = network.selection, network.threshold

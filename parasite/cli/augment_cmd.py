@@ -12,7 +12,10 @@ from parasite.cli.options import (
     broadband_opt,
     echo_warnings,
     frequency_opt,
+    inductance_opt,
+    loop_progress,
     min_coupling_opt,
+    near_progress,
     netlist_arg,
     parse_band,
     progress_callback,
@@ -46,14 +49,15 @@ if TYPE_CHECKING:
 @click.option("--probes", "probes", default=None, metavar="none|NAME,...",
               help="Which [[probe]] entries to attach: 'none', or names separated by commas. "
                    "Default: every probe of ROUTES.")
+@inductance_opt
 @strict_opt
 @scheduler_opt
 @quiet_opt
 @reports_input_errors
 def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
             frequency: float | None, broadband: bool, band: str | None, keep_segments: bool,
-            model: str, report_path: str | None, probes: str | None, strict: bool,
-            scheduler: str | None, quiet: bool) -> None:
+            model: str, report_path: str | None, probes: str | None, inductance: str,
+            strict: bool, scheduler: str | None, quiet: bool) -> None:
     """Write NETLIST with the copper of ROUTES wired in: a series R and L for
     every branch of copper, and coupling statements between them.
 
@@ -61,7 +65,6 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     measurement.
     """
     from geometry.routes import load_routes
-    from parasite.augment import augment_files
     from parasite.network.ladders import BroadbandOptions
     from parasite.outputs import check_outputs, input_files, write_outputs
     from parasite.report import report_json
@@ -74,19 +77,26 @@ def augment(netlist: str, routes: str, output: str, min_coupling: float | None,
     outputs = [output] if report_path is None else [report_path, output]
     check_outputs(outputs, [netlist, routes])
     click.get_current_context().with_resource(connected(scheduler))  # before any work
-    if probes is None:
-        result = augment_files(netlist, routes, min_coupling=min_coupling, frequency=frequency,
-                               keep_segments=keep_segments, progress=progress_callback(quiet),
-                               broadband=wide, model=model)
-    else:
-        from parasite.augment import augment_inputs
-        from parasite.pipeline import inputs_of, read_netlist_arg
+    if (broadband or fband) and inductance == "fast":
+        raise click.UsageError("--broadband fits ladders per branch of the full model, which "
+                               "--inductance fast does not write")
+    if model == "full" and inductance == "fast":
+        raise click.UsageError("--model full needs the dense matrix: not with --inductance fast")
+    from parasite.augment import augment_inputs
+    from parasite.pipeline import inputs_of, load_inputs, read_netlist_arg
 
+    if probes is None:
+        loaded = load_inputs(netlist, routes, inductance)
+    else:
         chosen = select_probes(load_routes(routes), probes)
-        loaded = inputs_of(read_netlist_arg(netlist), chosen, netlist, routes)
-        result = augment_inputs(loaded, min_coupling=min_coupling, frequency=frequency,
-                                keep_segments=keep_segments, progress=progress_callback(quiet),
-                                broadband=wide, model=model)
+        loaded = inputs_of(read_netlist_arg(netlist), chosen, netlist, routes, inductance)
+    fast = loaded.inductance == "fast"
+    line = loop_progress(quiet) if fast else None
+    result = augment_inputs(loaded, min_coupling=min_coupling, frequency=frequency,
+                            keep_segments=keep_segments,
+                            progress=near_progress(quiet) if fast else progress_callback(quiet),
+                            broadband=wide, model=model,
+                            status=None if line is None else line.status, scheduler=scheduler)
     inputs = input_files(netlist, routes, result.network.extraction.inputs.netlist
                          if result.network is not None else None)
     check_outputs(outputs, inputs)  # now also the files the netlist includes

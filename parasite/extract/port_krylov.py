@@ -88,7 +88,8 @@ def resistive_division(i_p: np.ndarray, B: sp.spmatrix | None, R: np.ndarray) ->
 def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.ndarray,
                               omega: float, preconditioner: str = "diagonal"
                               ) -> Callable[[np.ndarray], np.ndarray]:
-    """``r -> x`` with ``x = B (B^T Z_P B)^{-1} r`` (N,), the branch currents of the
+    """``r -> x`` with ``x = B (B^T Z_P B)^{-1} r`` (N,) or (N, k) for ``r`` (c,) or (c, k),
+    the branch currents of the
     preconditioned cycle correction (module docstring); ``x[chords]`` is the mesh
     vector."""
     A = basis.incidence
@@ -99,10 +100,11 @@ def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.n
         lu = splu((A @ sp.diags(y) @ A.T).tocsc())
 
         def apply(r: np.ndarray) -> np.ndarray:
-            g = np.zeros(nb, dtype=complex)
+            g = np.zeros((nb,) + r.shape[1:], dtype=complex)
             g[chords] = r
-            yg = y * g
-            return np.asarray(yg - y * (A.T @ lu.solve(A @ yg)))
+            w = y.reshape((nb,) + (1,) * (r.ndim - 1))
+            yg = w * g
+            return np.asarray(yg - w * (A.T @ lu.solve(A @ yg)))
         return apply
     if preconditioner == "near":
         near = getattr(op, "near", None)
@@ -122,23 +124,30 @@ def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.n
 def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega: float, *,
                  rtol: float = 1e-10, maxiter: int = 2000, restart: int = 400,
                  preconditioner: str = "diagonal",
-                 iteration: Callable[[int, float], None] | None = None
+                 iteration: Callable[[int, float], None] | None = None,
+                 atol: float = 0.0,
+                 pre: Callable[[np.ndarray], np.ndarray] | None = None,
                  ) -> tuple[np.ndarray, int]:
     """Branch currents ``i = i_p + B m`` (A) with ``B^T (R + j omega L) i = 0`` solved by
     GMRES(``restart``) with the constraint preconditioner (module docstring), and the
-    GMRES iterations it took; ``omega`` > 0 rad/s, ``basis.i_p`` one injection (N,).
-    ``iteration(k, residual)`` after each iteration (the relative residual of the
-    preconditioned system). Raises :class:`ExtractionError` when ``rtol`` is not
-    reached in ``maxiter``."""
+    GMRES iterations it took; ``omega`` > 0 rad/s, ``basis.i_p`` one injection (N,), or
+    any currents meeting the current law (a first guess: only the cycle correction is
+    solved for). It stops at the residual ``max(rtol |r0|, atol)`` (V; ``r0`` the
+    residual of ``i_p``). ``pre``: the preconditioner of :func:`constraint_preconditioner`
+    when already built for this ``omega``. ``iteration(k, residual)`` after each
+    iteration (the relative residual of the preconditioned system). Raises
+    :class:`ExtractionError` when the residual is not reached in ``maxiter``."""
     R = np.asarray(R, dtype=float)
     i_p = np.asarray(basis.i_p).reshape(-1)
     if basis.B is None:
         return i_p.astype(complex), 0
     Bt = basis.B.T.tocsr()
-    pre = constraint_preconditioner(basis, op, R, omega, preconditioner)
+    if pre is None:
+        pre = constraint_preconditioner(basis, op, R, omega, preconditioner)
+    apply = pre
 
     c = Bt.shape[0]
-    A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul_full(op, R, omega, pre(y)),
+    A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul_full(op, R, omega, apply(y)),
                        dtype=complex)
     rhs = -(Bt @ zmul_full(op, R, omega, i_p.astype(complex)))
     count = [0]
@@ -148,13 +157,13 @@ def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega
         if iteration is not None:
             iteration(count[0], float(res))
 
-    y, info = gmres(A, rhs, rtol=rtol, atol=0.0, restart=min(c, restart),
+    y, info = gmres(A, rhs, rtol=rtol, atol=atol, restart=min(c, restart),
                     maxiter=max(1, maxiter // max(1, min(c, restart))),
                     callback=cb, callback_type="pr_norm")
     if info != 0:
         raise ExtractionError(f"the iterative port solve did not reach {rtol:g} in "
                               f"{count[0]} iterations", key="ports")
-    return i_p + pre(y), count[0]
+    return i_p + apply(y), count[0]
 
 
 def zmul_full(op: InductanceOperator, R: np.ndarray, omega: float, v: np.ndarray) -> np.ndarray:

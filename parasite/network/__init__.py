@@ -10,6 +10,6 @@ broadband ladders) and reduced models belong beside these, as modules of
 their own that the :class:`Network` points to.
 """
 
-from parasite.network.network import Network, NetworkOptions, build_network
+from parasite.network.network import Network, NetworkOptions, build_fast_network, build_network
 
-__all__ = ["Network", "NetworkOptions", "build_network"]
+__all__ = ["Network", "NetworkOptions", "build_fast_network", "build_network"]

@@ -35,7 +35,8 @@ from parasite.network.threshold import DEFAULT_TOLERANCE, FALLBACK, ThresholdCho
 
 if TYPE_CHECKING:
     from geometry.model import CopperGraph
-    from parasite.pipeline import Extraction
+    from parasite.extract.operator import InductanceOperator
+    from parasite.pipeline import Extraction, FastExtraction
 
 
 @dataclass(frozen=True)
@@ -49,7 +50,7 @@ class NetworkOptions:
 class Network:
     """Branches, nodes, ports and the couplings to write, of one extraction."""
 
-    extraction: Extraction
+    extraction: Extraction | FastExtraction
     options: NetworkOptions
     node_names: dict[int, str]  # graph node id -> netlist node name
     reserved_names: frozenset[str]  # netlist node names taken so far (lower-case)
@@ -63,6 +64,8 @@ class Network:
                                                          compare=False)
     select: Callable[[float], CouplingSelection] | None = field(default=None, repr=False,
                                                                 compare=False)
+    op: InductanceOperator | None = field(default=None, repr=False, compare=False)
+    """The branch inductance as an operator (the fast path: ``L`` is then empty)."""
 
     @property
     def threshold(self) -> ThresholdChoice | None:
@@ -128,23 +131,33 @@ def _selector(Lb: np.ndarray, leads: np.ndarray) -> tuple[Any, Any]:
     return select, written
 
 
-def build_network(extraction: Extraction, options: NetworkOptions | None = None) -> Network:
-    """The circuit of ``extraction``'s copper (see the module docstring)."""
-    options = options or NetworkOptions()
-    inputs = extraction.inputs
-    graph = inputs.graph
-    allocator = NameAllocator(inputs.netlist.node_names())
-    given = options.min_coupling
-    if not graph.segments:
-        return Network(extraction, options, {}, allocator.taken(), frozenset(),
-                       np.zeros(0, dtype=bool))
+def _circuit(extraction: Extraction | FastExtraction, options: NetworkOptions
+             ) -> tuple[dict[int, str], NameAllocator, frozenset[int], np.ndarray, list[Branch]]:
+    """Node names, the name allocator, the kept nodes, the conducting segments and the
+    branches of ``extraction``'s copper (no inductance needed)."""
+    graph = extraction.inputs.graph
+    allocator = NameAllocator(extraction.inputs.netlist.node_names())
     names = node_names(graph, allocator)
     keep = {p.node for p in graph.pins} | set(graph.anchors.values())
     keep |= {pl.node for pl in graph.planes}
     keep |= kept_nodes(graph)
     mask = conducting_segments(graph, keep)
     branches = build_branches(graph, mask, keep, merge=not options.keep_segments)
-    reserved, kept = allocator.taken(), frozenset(keep)
+    return names, allocator, frozenset(keep), mask, branches
+
+
+def build_network(extraction: Extraction, options: NetworkOptions | None = None) -> Network:
+    """The circuit of ``extraction``'s copper (see the module docstring)."""
+    options = options or NetworkOptions()
+    inputs = extraction.inputs
+    graph = inputs.graph
+    given = options.min_coupling
+    if not graph.segments:
+        allocator = NameAllocator(inputs.netlist.node_names())
+        return Network(extraction, options, {}, allocator.taken(), frozenset(),
+                       np.zeros(0, dtype=bool))
+    names, allocator, kept, mask, branches = _circuit(extraction, options)
+    reserved = allocator.taken()
     if not branches:
         return Network(extraction, options, names, reserved, kept, mask, branches,
                        chosen=ThresholdChoice(FALLBACK if given is None else given,
@@ -161,3 +174,28 @@ def build_network(extraction: Extraction, options: NetworkOptions | None = None)
                        search=search, select=select)
     return Network(extraction, options, names, reserved, kept, mask, branches, Lb, Rb,
                    chosen=ThresholdChoice(given, "given (--min-coupling)", {}), select=select)
+
+
+FAST_RULE = "fast path: the full model is not written (its couplings need the dense matrix)"
+
+
+def build_fast_network(extraction: FastExtraction,
+                       options: NetworkOptions | None = None) -> Network:
+    """The circuit of a fast-path extraction: the same nodes and branches as
+    :func:`build_network`, the branch inductance as an operator
+    (:class:`parasite.network.branch_operator.BranchOperator`, ``Network.op``) and no
+    coupling selection (only a reduced model is written from it)."""
+    from parasite.network.branch_operator import BranchOperator
+
+    options = options or NetworkOptions()
+    names, allocator, kept, mask, branches = _circuit(extraction, options)
+    chosen = ThresholdChoice(FALLBACK if options.min_coupling is None else options.min_coupling,
+                             FAST_RULE, {})
+    if not branches:
+        return Network(extraction, options, names, allocator.taken(), kept, mask, branches,
+                       chosen=chosen)
+    op = BranchOperator(extraction.op, branches)
+    S = op.S
+    Rb = np.asarray(abs(S) @ extraction.R).ravel()
+    return Network(extraction, options, names, allocator.taken(), kept, mask, branches,
+                   R=Rb, chosen=chosen, op=op)

@@ -71,13 +71,14 @@ class MeshForm:
     R: np.ndarray  # (B,) ohm
 
 
-def mesh_form(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, ports: list[int],
-              L: np.ndarray, R: np.ndarray) -> MeshForm:
-    """Loop variables of the branch network for the given port nodes (graph node
-    ids, in order; duplicates and nodes without copper are ignored)."""
+def port_injections(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
+                    ports: list[int]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``(plus, minus, injection)`` of the given port nodes (graph node ids, in order;
+    duplicates and nodes without copper are ignored): on every connected piece of copper
+    the first port is the reference (``minus``) of the others (``plus``); ``injection``
+    (n_nodes, P) puts +1 A in at each port and takes it out at its reference."""
     nf = np.asarray(node_from, dtype=np.int64)
     nt = np.asarray(node_to, dtype=np.int64)
-    n = len(nf)
     used = np.zeros(n_nodes, dtype=bool)
     used[nf] = True
     used[nt] = True
@@ -96,12 +97,21 @@ def mesh_form(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, ports: l
     inj = np.zeros((n_nodes, len(plus)))
     inj[plus, np.arange(len(plus))] = 1.0
     inj[minus, np.arange(len(plus))] -= 1.0
+    return np.array(plus, dtype=np.int64), np.array(minus, dtype=np.int64), inj
+
+
+def mesh_form(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int, ports: list[int],
+              L: np.ndarray, R: np.ndarray) -> MeshForm:
+    """Loop variables of the branch network for the given port nodes
+    (:func:`port_injections`)."""
+    nf = np.asarray(node_from, dtype=np.int64)
+    nt = np.asarray(node_to, dtype=np.int64)
+    plus, minus, inj = port_injections(nf, nt, n_nodes, ports)
     T, C = injection_basis(nf, nt, n_nodes, inj)
     T = np.rint(T)  # 0, +1, -1 on the tree paths: exact
     if C is None:
-        C = sp.csc_matrix((n, 0))
-    return MeshForm(np.array(plus, dtype=np.int64), np.array(minus, dtype=np.int64), T, C,
-                    np.asarray(L, dtype=float), np.asarray(R, dtype=float))
+        C = sp.csc_matrix((len(nf), 0))
+    return MeshForm(plus, minus, T, C, np.asarray(L, dtype=float), np.asarray(R, dtype=float))
 
 
 def _project(form: MeshForm, Q: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
@@ -173,7 +183,7 @@ class ReducedModel:
         return self.min_eig_R > 0 and self.min_eig_L > 0
 
 
-def _orth(V: np.ndarray, block: np.ndarray, tol: float = 1e-10) -> np.ndarray:
+def orth_block(V: np.ndarray, block: np.ndarray, tol: float = 1e-10) -> np.ndarray:
     """Columns of ``block`` orthogonalised against ``V`` and each other (twice,
     classical Gram-Schmidt then QR with column pivoting); near-dependent ones dropped."""
     if block.size == 0:
@@ -208,7 +218,7 @@ class _KrylovPoint:
         self.block = sla.cho_solve(self.lu, start)
 
     def next_block(self, V: np.ndarray) -> np.ndarray:
-        new = _orth(V, self.block)
+        new = orth_block(V, self.block)
         if new.shape[1]:
             self.block = sla.cho_solve(self.lu, self.op @ new)
         else:

@@ -36,6 +36,7 @@ from parasite.network.reduce import (
     reduce_network,
 )
 from parasite.network.reduce_cards import Realisation, realise
+from parasite.network.reduce_operator import OperatorReduction, operator_mesh, reduce_operator
 from parasite.network.threshold import CANDIDATES
 
 if TYPE_CHECKING:
@@ -99,6 +100,39 @@ def reduce_for_netlist(network: Network, *, f_max: float = DEFAULT_FMAX,
         red.full_size = len(network.branches) + strong_pairs(network.L, CANDIDATES[0])
         red.full_exact = False
     return red
+
+
+def reduce_fast(network: Network, *, f_max: float = DEFAULT_FMAX,
+                tolerance: float = DEFAULT_TOLERANCE, scheduler: Any = None,
+                status: Any = None) -> tuple[Reduction, OperatorReduction]:
+    """The reduced model of a fast-path network (``network.op``, the branch inductance
+    as an operator; :mod:`parasite.network.reduce_operator`) and its realisation. The
+    full model's size is the lower bound of :func:`reduce_for_netlist` counted over the
+    exact near field (its couplings are not searched on the fast path)."""
+    if network.op is None:
+        raise ValueError("reduce_fast needs the fast path's network (Network.op)")
+    mesh = operator_mesh(network.node_from, network.node_to, len(network.graph.nodes),
+                         port_nodes(network), network.op, network.R)
+    found = reduce_operator(mesh, f_max=f_max, tolerance=tolerance, scheduler=scheduler,
+                            status=status)
+    model = found.model
+    real = realise(model, model.full_Z)
+    n_res = len(real.resistors) + len(real.internal_R)
+    n_k = int((real.k != 0).sum()) // 2
+    near = network.op.near if hasattr(network.op, "near") else None
+    strong = 0 if near is None else near_strong_pairs(near, network.op.diagonal(), CANDIDATES[0])
+    red = Reduction(model, real, len(network.branches) + strong,
+                    len(real.inductances) + n_k + n_res, full_exact=False)
+    return red, found
+
+
+def near_strong_pairs(near: Any, diag: np.ndarray, k_min: float) -> int:
+    """Pairs ``i < j`` of a sparse near field with ``|k| >= k_min`` (> 0)."""
+    import scipy.sparse as sp
+
+    coo = sp.triu(near, k=1).tocoo()
+    k = np.abs(coo.data) / np.sqrt(diag[coo.row] * diag[coo.col])
+    return int(np.count_nonzero((k >= k_min) & (k > 0)))
 
 
 def full_model_size(network: Network) -> int:
@@ -183,4 +217,27 @@ def reduction_report(chosen: str, red: Reduction | None, why: str) -> dict[str, 
         "size": {"full": red.full_size, "full_exact": red.full_exact,
                  "reduced": red.reduced_size},
     })
+    return out
+
+
+def fast_reduction_report(red: Reduction, found: OperatorReduction, why: str) -> dict[str, Any]:
+    """:func:`reduction_report` of a fast-path reduction, with how it was found: the
+    greedy steps (frequency, estimated and checked error, GMRES iterations per port),
+    and the estimated error of the written model on the frequency grid."""
+    from parasite.network.reduce_operator import SOLVE_RTOL
+
+    out = reduction_report("reduced", red, why)
+    out["error_over_frequency_note"] = (
+        "at the frequencies where the full network was solved (the inductance as an "
+        "operator); elsewhere estimated: estimated_error_over_frequency")
+    out["estimated_error_over_frequency"] = [[float(f), float(e)] for f, e in
+                                             zip(found.grid, found.estimate, strict=True)]
+    out["method"] = ("greedy: exact solves of every port at the frequency of largest "
+                     "estimated error, joined to the model's currents until the error "
+                     "there is within the tolerance")
+    out["steps"] = [{"frequency": s["frequency"], "estimated_error": s["estimate"],
+                     "error": s["error"], "states_before": s["states"],
+                     "gmres_iterations": list(s["iterations"])} for s in found.steps]
+    out["gmres_iterations"] = found.iterations
+    out["gmres_rtol"] = SOLVE_RTOL
     return out

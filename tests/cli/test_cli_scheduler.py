@@ -112,9 +112,10 @@ def test_unreachable_scheduler_is_a_clear_error(tmp_path: Path, command: str) ->
 def test_fast_report_on_a_local_cluster_gives_the_same_bytes(tmp_path: Path,
                                                              monkeypatch: pytest.MonkeyPatch
                                                              ) -> None:
-    """``report --inductance fast`` (fixtures/routes/pour_plane: a trace over a meshed
-    pour) with its near field's blocks of rows computed on a LocalCluster of two worker
-    processes is byte-identical to the in-process run, and the blocks did run there."""
+    """``report --inductance fast`` and ``augment --inductance fast``
+    (fixtures/routes/pour_plane: a trace over a meshed pour) with the near field's blocks
+    of rows and the reduced model's port solves computed on a LocalCluster of two worker
+    processes are byte-identical to the in-process run, and the work did run there."""
     distributed = pytest.importorskip("distributed")
     cir = str(ROOT / "fixtures" / "routes" / "pour_plane.cir")
     rt = str(ROOT / "fixtures" / "routes" / "pour_plane.routes.toml")
@@ -122,11 +123,17 @@ def test_fast_report_on_a_local_cluster_gives_the_same_bytes(tmp_path: Path,
     (tmp_path / "here").mkdir()
     (tmp_path / "there").mkdir()
     here = _report(cir, rt, tmp_path / "here", "--inductance", "fast")
+    net_here, rep_here = _augment(cir, rt, tmp_path / "here", "--inductance", "fast")
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   dashboard_address=None) as cluster:
         there = _report(cir, rt, tmp_path / "there", "--inductance", "fast", "--scheduler",
                         cluster.scheduler_address)
+        net_there, rep_there = _augment(cir, rt, tmp_path / "there", "--inductance", "fast",
+                                        "--scheduler", cluster.scheduler_address)
         ran = {str(k) for k in cluster.scheduler.task_prefixes}
     assert "apply" in ran
     assert json.loads(here)["inductance"]["method"] == "fast"
     assert there == here
+    # augment's reduced model: its exact port solves (one item per port) ran there too
+    assert json.loads(rep_here)["model"]["steps"]
+    assert (net_there, rep_there) == (net_here, rep_here)
