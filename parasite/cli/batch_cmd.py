@@ -53,6 +53,9 @@ def _outputs(boards: list[tuple[str, str]], folder: str) -> list[str]:
     """The report file of every board in ``folder``; usage errors for a file at
     ``folder`` and for two boards with the same report name."""
     where = Path(folder)
+    if not folder.strip() or folder == "-":
+        raise click.UsageError(f"-o {folder!r}: give a folder for the reports (one file per "
+                               f"board; none goes to standard output)")
     if where.exists() and not where.is_dir():
         raise click.UsageError(f"-o {folder!r} is a file; give a folder for the reports")
     seen: dict[str, str] = {}

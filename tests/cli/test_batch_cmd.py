@@ -93,7 +93,7 @@ def test_odd_number_of_files_is_a_usage_error(tmp_path: Path) -> None:
     assert not (tmp_path / "out").exists()
 
 
-def test_standard_input_and_a_file_at_dir_are_usage_errors(tmp_path: Path) -> None:
+def test_standard_input_and_no_folder_at_dir_are_usage_errors(tmp_path: Path) -> None:
     res = _batch("-o", str(tmp_path / "out"), "-", CROSSING[1])
     assert res.exit_code == EXIT_USAGE and "standard input" in res.stderr
     file = tmp_path / "file"
@@ -101,6 +101,9 @@ def test_standard_input_and_a_file_at_dir_are_usage_errors(tmp_path: Path) -> No
     res = _batch("-o", str(file), *CROSSING)
     assert res.exit_code == EXIT_USAGE and "is a file" in res.stderr
     assert file.read_text() == "x"
+    for name in ("-", ""):
+        res = _batch("-o", name, *CROSSING)
+        assert res.exit_code == EXIT_USAGE and "give a folder" in res.stderr
 
 
 def test_a_bad_routes_file_in_the_second_board_writes_nothing(tmp_path: Path) -> None:
