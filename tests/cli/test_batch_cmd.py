@@ -78,6 +78,26 @@ def test_batch_writes_what_report_prints_for_each_board(tmp_path: Path, inductan
     assert ": reported (" not in quiet.stderr and "copper island" in quiet.stderr
 
 
+@pytest.mark.parametrize("threads", [False, True])
+def test_run_map_tells_each_item_once_as_it_arrives(threads: bool) -> None:
+    """The progress seam of the batch: ``item_done(index)`` once per item, after its
+    result, the results in the items' order."""
+    from parasite.schedule import run_map
+
+    items = [-3, 1, -2, 5]
+    computed: list[int] = []
+    told: list[tuple[int, bool]] = []
+
+    def work(x: int) -> int:
+        computed.append(x)
+        return abs(x)
+
+    got = run_map(work, items, threads=threads,
+                  item_done=lambda i: told.append((i, items[i] in computed)))
+    assert got == [3, 1, 2, 5]
+    assert sorted(told) == [(0, True), (1, True), (2, True), (3, True)]
+
+
 def test_report_names() -> None:
     assert report_name("a/board.routes.toml") == "board.json"
     assert report_name("board.routes.json") == "board.json"
@@ -229,6 +249,13 @@ def test_batch_on_a_local_cluster_gives_the_same_bytes(tmp_path: Path) -> None:
             assert res.exit_code == 0, res.output
             assert f"on {cluster.scheduler_address}" in res.stderr
             assert res.stderr.count(": reported (") == len(boards) // 2
+        # an error in a board's work on a worker: the same exit 1 naming the file
+        loops = (str(ROUTES / "loops.cir"), str(ROUTES / "loops.routes.toml"))
+        res = _batch("-o", str(tmp_path / "err"), *CROSSING, *loops, "--inductance", "fast",
+                     "--scheduler", cluster.scheduler_address, "-q")
+        assert res.exit_code == EXIT_INPUT_ERROR, res.output
+        assert f"{loops[1]}: error:" in res.stderr and "no copper" in res.stderr
+        assert not (tmp_path / "err").exists()
         ran = {str(k) for k in cluster.scheduler.task_prefixes}
     assert "apply" in ran  # the boards ran there
     for how, names in (("dense", ["crossing.json", "island.json"]),
