@@ -106,11 +106,12 @@ def batch(files: tuple[str, ...], output_dir: str, inductance: str, scheduler: s
     outputs = _outputs(boards, output_dir)
     client = click.get_current_context().with_resource(connected(scheduler))  # before any work
     protected: list[str | Path] = []
-    loop_lines: list[dict[str, int | None]] = []
+    loop_lines: list[dict[str, str]] = []  # per board: loop name -> where it is written
     for netlist, routes in boards:  # every board's files read and checked first
         inputs = load_inputs(netlist, routes, inductance)
         protected += input_files(netlist, routes, inputs.netlist)
-        loop_lines.append({spec.name: spec.line for spec in inputs.routes.loops})
+        loop_lines.append({spec.name: f"{routes}:{spec.line}" if spec.line is not None
+                           else f"{routes}: loop[{spec.index}]" for spec in inputs.routes.loops})
     if Path(output_dir).is_dir():  # else no output can be an existing input
         check_outputs(outputs, protected)
     total = len(boards)
@@ -208,21 +209,20 @@ def format_table(outputs: list[str], reports: list[dict[str, Any]]) -> str:
 
 
 def over_limit_lines(routes: str, report: dict[str, Any],
-                     loop_lines: dict[str, int | None]) -> list[str]:
+                     loop_lines: dict[str, str]) -> list[str]:
     """``ROUTES:LINE: loop 'NAME' is over its limit: VALUE > LIMIT`` for every loop
     over its limit, and the same for every mutual limit exceeded (as ``check``)."""
-    from parasite.cli.check_cmd import _pair
+    from parasite.cli.check_cmd import value_and_limit
 
     out = []
     for loop in report["loops"]:
         if loop.get("within_limit") is False:
-            value, limit = _pair(loop["inductance"], loop["limit"])
-            line = loop_lines.get(loop["name"])
-            where = f"{routes}:{line}" if line is not None else routes
+            value, limit = value_and_limit(loop["inductance"], loop["limit"])
+            where = loop_lines.get(loop["name"], routes)
             out.append(f"{where}: loop {loop['name']!r} is over its limit: {value} > {limit}")
     for e in report["mutual_limits"]:
         if not e["within_limit"]:
-            value, limit = _pair(abs(e["mutual"]), e["limit"])
+            value, limit = value_and_limit(abs(e["mutual"]), e["limit"])
             where = f"{routes}:{e['line']}" if e["line"] is not None else f"{routes}: {e['key']}"
             out.append(f"{where}: mutual of loops {e['loop']!r} and {e['other']!r} is over its "
                        f"limit: {value} > {limit}")

@@ -141,6 +141,22 @@ def test_a_bad_routes_file_in_the_second_board_writes_nothing(tmp_path: Path) ->
     assert res.exit_code == EXIT_INPUT_ERROR and _files(out) == []
 
 
+def test_a_board_too_big_for_the_memory_writes_nothing(tmp_path: Path,
+                                                      monkeypatch: pytest.MonkeyPatch) -> None:
+    """The size check of every board comes before any work: with 1 MB allowed, the
+    dense estimate (4 x 8 N^2 bytes, parasite/extract/memory.py; over 1 MB from
+    N = 177) refuses pour_plane, whose 24 x 10 mm pour meshed in cells of 0.75 to 3 mm
+    makes hundreds of pieces, and passes crossing (4 pieces)."""
+    monkeypatch.setenv("PARASITE_MEMORY_LIMIT", "1meg")
+    out = tmp_path / "out"
+    res = _batch("-o", str(out), *CROSSING, *POUR, "--inductance", "dense")
+    assert res.exit_code == EXIT_INPUT_ERROR, res.output
+    assert res.stderr.startswith(f"{POUR[1]}: error: ")
+    assert "pieces of copper need about" in res.stderr
+    assert ": reported (" not in res.stderr  # no board's work started
+    assert not out.exists()
+
+
 def test_an_error_during_extraction_writes_nothing(tmp_path: Path) -> None:
     """fixtures/routes/loops: loops but no copper, accepted when read; the inductance
     operator needs segments, so ``--inductance fast`` fails in that board's work,
@@ -173,8 +189,9 @@ def _limited_pour(folder: Path, limit: str) -> tuple[str, str]:
 
 
 def test_check_exits_3_after_writing_when_a_loop_is_over_its_limit(tmp_path: Path) -> None:
-    # a 20 mm trace 0.2 mm over its return: about 2-3 nH (PCB rule of thumb, common
-    # practice); 1 pH is far below and 1 uH far above
+    # a 20 mm trace 0.5 mm wide, 0.2 mm over its return: a few nH (0.27 nH/mm by the
+    # narrow-microstrip estimate (mu0 / 2 pi) ln(8h/w + w/4h), from memory); 1 pH is
+    # far below and 1 uH far above
     over = _limited_pour(tmp_path, "1e-12")
     (tmp_path / "ok").mkdir()
     within = _limited_pour(tmp_path / "ok", "1e-6")
@@ -187,6 +204,9 @@ def test_check_exits_3_after_writing_when_a_loop_is_over_its_limit(tmp_path: Pat
     assert line.startswith(f"{over[1]}:")
     assert "loop 'load loop' is over its limit:" in line and line.endswith("> 1 pH")
     assert int(line.split(":")[1]) < limit_line  # the [[loop]] entry's line, before it
+    alone = CliRunner().invoke(main, ["check", *over, "-q"])  # as check says it
+    assert alone.exit_code == EXIT_OVER_LIMIT
+    assert alone.stderr.strip().splitlines()[-1] == line
     assert res.stdout.splitlines()[2].split()[2:4] == ["1", "1"]
     plain = _batch("-o", str(tmp_path / "plain"), *over, "-q")
     assert plain.exit_code == 0, plain.output  # without --check: the table says it
