@@ -17,7 +17,7 @@ Estimates from closed-form partial inductances: confirm them by measurement.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 from parasite.schedule import run_map
@@ -48,8 +48,10 @@ def board_report(item: tuple[str, str, str]) -> bytes:
 
 
 def report_boards(boards: Sequence[tuple[str, str]], *, inductance: str = "auto",
-                  scheduler: str | Any | None = None) -> list[bytes]:
+                  scheduler: str | Any | None = None,
+                  board_done: Callable[[int], None] | None = None) -> list[bytes]:
     """:func:`board_report` of every ``(netlist path, routes path)`` in ``boards``, in
-    the order given, each board one item of :func:`parasite.schedule.run_map`."""
+    the order given, each board one item of :func:`parasite.schedule.run_map`;
+    ``board_done(index)`` is called as each board's report arrives."""
     items = [(str(n), str(r), inductance) for n, r in boards]
-    return run_map(board_report, items, scheduler=scheduler)
+    return run_map(board_report, items, scheduler=scheduler, item_done=board_done)

@@ -61,25 +61,27 @@ class _Single:
 
 
 def run_map(func: Callable[[T], R], items: Iterable[T], *,
-            scheduler: str | Any | None = None, threads: bool = False) -> list[R]:
+            scheduler: str | Any | None = None, threads: bool = False,
+            item_done: Callable[[int], None] | None = None) -> list[R]:
     """[func(item) for item in items], in process or on a Dask cluster (module
     docstring). ``func`` and the items must be picklable for a cluster (a module-level
     function, arrays). Without ``scheduler`` the connection of :func:`connected` is
     used if one is open, else ``$PARASITE_SCHEDULER``. In process, ``threads`` runs
     the items on a thread per core (for work that is numpy/LAPACK only, which
     releases the interpreter lock; not numba's parallel loops): the same numbers,
-    as every item still runs with one BLAS thread."""
+    as every item still runs with one BLAS thread. ``item_done(index)`` is called in
+    this process as each item's result arrives (in any order on a cluster)."""
     work = list(items)
     task = _single_threaded(func)
     if scheduler is None:
         scheduler = _ACTIVE.get()
     if scheduler is not None and not isinstance(scheduler, str):
-        return _on_client(scheduler, task, work)
+        return _on_client(scheduler, task, work, item_done)
     address = scheduler_address(scheduler)
     if address is None:
-        return _in_process(func, work, threads)
+        return _in_process(func, work, threads, item_done)
     with _connect(address) as client:
-        return _on_client(client, task, work)
+        return _on_client(client, task, work, item_done)
 
 
 def runs_here(scheduler: str | Any | None = None) -> bool:
@@ -91,17 +93,28 @@ def runs_here(scheduler: str | Any | None = None) -> bool:
     return scheduler_address(scheduler) is None
 
 
-def _in_process(func: Callable[[T], R], work: list[T], threads: bool) -> list[R]:
+def _in_process(func: Callable[[T], R], work: list[T], threads: bool,
+                item_done: Callable[[int], None] | None = None) -> list[R]:
     from threadpoolctl import threadpool_limits
 
     with threadpool_limits(limits=1):  # once for all the items: as _single_threaded
         n = min(len(work), os.cpu_count() or 1) if threads else 1
         if n <= 1:
-            return [func(x) for x in work]
+            out = []
+            for i, x in enumerate(work):
+                out.append(func(x))
+                if item_done is not None:
+                    item_done(i)
+            return out
         from concurrent.futures import ThreadPoolExecutor
 
         with ThreadPoolExecutor(max_workers=n) as pool:
-            return list(pool.map(func, work))
+            out = []
+            for i, result in enumerate(pool.map(func, work)):
+                out.append(result)
+                if item_done is not None:
+                    item_done(i)
+            return out
 
 
 def _connect(address: str) -> Any:
@@ -164,9 +177,18 @@ def _apply(item: Any, task: Callable[[Any], Any]) -> Any:
     return task(item)
 
 
-def _on_client(client: Any, task: Callable[[T], R], work: Sequence[T]) -> list[R]:
+def _on_client(client: Any, task: Callable[[T], R], work: Sequence[T],
+               item_done: Callable[[int], None] | None = None) -> list[R]:
     # the task carries the shared data (matrices): sent once to every worker, then
     # referred to by the per-item tasks
     shared = client.scatter(task, broadcast=True, hash=False)
     futures = client.map(_apply, work, task=shared, pure=False)
+    if item_done is not None and futures:
+        from distributed import as_completed
+
+        index = {f.key: i for i, f in enumerate(futures)}
+        for future in as_completed(futures, loop=client.loop):
+            if future.status == "error":
+                break  # gather raises the item's error
+            item_done(index[future.key])
     return list(client.gather(futures))

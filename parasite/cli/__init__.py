@@ -27,6 +27,7 @@ _COMMANDS: dict[str, tuple[str, str]] = {
     "plot": ("parasite.cli.plot_cmd", "plot"),
     "ring": ("parasite.cli.ring_cmd", "ring"),
     "import": ("parasite.cli.import_cmd", "import_board"),
+    "batch": ("parasite.cli.batch_cmd", "batch"),
 }
 
 EXIT_INPUT_ERROR = 1

@@ -31,7 +31,7 @@ from parasite.cli.options import (
 )
 
 
-def _pair(value: float, limit: float) -> tuple[str, str]:
+def value_and_limit(value: float, limit: float) -> tuple[str, str]:
     """Value and limit with enough digits to tell them apart."""
     from parasite.units import engineering
 
@@ -85,12 +85,12 @@ def check(netlist: str, routes: str, inductance: str, strict: bool, scheduler: s
     write_output("-", text.encode())
     for r in over:
         assert r.limit is not None
-        value, limit = _pair(r.inductance, r.limit)
+        value, limit = value_and_limit(r.inductance, r.limit)
         where = f"{routes}:{r.line}" if r.line is not None else f"{routes}: loop[{r.index}]"
         click.echo(f"{where}: loop {r.name!r} is over its limit: {value} > {limit}", err=True)
     mutual_over = [e for e in limits if not e["within_limit"]]
     for e in mutual_over:
-        value, limit = _pair(abs(e["mutual"]), e["limit"])
+        value, limit = value_and_limit(abs(e["mutual"]), e["limit"])
         where = f"{routes}:{e['line']}" if e["line"] is not None else f"{routes}: {e['key']}"
         click.echo(f"{where}: mutual of loops {e['loop']!r} and {e['other']!r} is over its limit: "
                    f"{value} > {limit}", err=True)
