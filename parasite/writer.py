@@ -187,9 +187,10 @@ def _reduced_header(network: Network, reduction: Any) -> list[str]:
     return [
         f"* ---- parasite: copper from {Path(inputs.routes_path).name}, reduced model ----",
         f"* {len(network.branches)} branches seen from {m.n_ports} ports, reduced to "
-        f"{m.order} internal states of {m.full_order} (block Krylov congruence projection)",
+        f"{m.order} internal states of {m.full_order} ({reduction.method})",
         f"* port impedance within {r.max_error:.2e} (complex relative error) of the full "
-        f"network from DC to {m.f_max:g} Hz; resistance "
+        f"network from DC to {m.f_max:g} Hz"
+        + (f" ({reduction.checked})" if reduction.checked else "") + "; resistance "
         + ("at DC" if freq is None else f"at {freq:g} Hz (skin effect estimate)"),
         f"* smallest eigenvalue of the inductance matrix as written: {r.min_eig_L:.4e} H",
         "* partial inductances from closed-form formulas: estimates, to be confirmed by measurement",

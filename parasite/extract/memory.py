@@ -8,8 +8,8 @@ estimate is ``DENSE_FACTOR * 8 N^2`` bytes. A board past that is refused before
 the matrix is allocated, with what it would need, instead of being killed by the
 operating system part-way.
 
-The fast path (:class:`parasite.extract.operator.FastInductance`, ``report`` and
-``check`` with ``--inductance fast``) holds no N x N array: its memory grows with the
+The fast path (:class:`parasite.extract.operator.FastInductance`, ``augment``,
+``report``, ``check`` and ``batch`` with ``--inductance fast``) holds no N x N array: its memory grows with the
 exact near pairs (sparse near field, its correction, their construction and the
 loop solves' sparse preconditioner) and with the segments (the copper graph, the
 multipole sums' points and tree). :func:`fast_bytes` estimates it as
@@ -115,5 +115,5 @@ def check_dense_fits(n: int, routes_path: str | None) -> None:
         f"matrix and its solves ({DENSE_FACTOR:g} x 8 N^2 bytes), more than the "
         f"{have / 2**30:.3g} GiB available ({ENV} or the system's free memory): use coarser "
         f"pour cells (`cell` of each [[pour]]), or fewer pieces (import only the nets that "
-        f"matter), or a machine with more memory; `parasite report` and `parasite check` "
-        f"with `--inductance fast` hold no dense matrix", file=routes_path)
+        f"matter), or a machine with more memory; with `--inductance fast` (`augment`, "
+        f"`report`, `check`, `batch`) no dense matrix is held", file=routes_path)
