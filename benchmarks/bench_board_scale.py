@@ -20,7 +20,9 @@ Targets: 20,000 segments end to end within 3 GB; 100,000 within 10 minutes and
 compare with).
 
 Run: ``.venv/bin/python benchmarks/bench_board_scale.py [--sizes 5000 20000] [--cells 0.27]``
-(0.27 mm: the 100,000-cell board, 98,547 segments).
+(0.27 mm: the 100,000-cell board, 98,547 segments). ``--augment`` runs ``augment`` (the
+netlist with the copper's reduced model, :mod:`parasite.network.reduce_operator` on the
+fast path) instead, and prints the model's order, error and greedy steps.
 """
 
 from __future__ import annotations
@@ -95,12 +97,15 @@ def write_board(folder: Path, cell: float, **kw: str) -> tuple[str, str]:
     return str(cir), str(routes)
 
 
-def run(cir: str, routes: str, inductance: str, out: Path) -> dict:
-    """One ``report`` run in a fresh process: wall s, peak RSS MiB, the report."""
+def run(cir: str, routes: str, inductance: str, out: Path, command: str = "report") -> dict:
+    """One ``report`` (or ``augment``, its JSON report beside the netlist) run in a fresh
+    process: wall s, peak RSS MiB, the report."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
     t0 = time.perf_counter()
-    proc = subprocess.run([sys.executable, "-m", "parasite", "report", cir, routes, "--format",
-                           "json", "--inductance", inductance, "-o", str(out)],
+    args = (["report", cir, routes, "--format", "json", "-o", str(out)] if command == "report"
+            else ["augment", cir, routes, "-o", str(out.with_suffix(".cir")), "--report",
+                  str(out)])
+    proc = subprocess.run([sys.executable, "-m", "parasite", *args, "--inductance", inductance],
                           capture_output=True, text=True, cwd=ROOT)
     wall = time.perf_counter() - t0
     peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
@@ -111,6 +116,18 @@ def run(cir: str, routes: str, inductance: str, out: Path) -> dict:
             "report": report}
 
 
+def model_line(model: dict) -> str:
+    """The reduced model of an ``augment`` report: order, error, greedy steps."""
+    steps = model.get("steps")
+    text = (f"model {model.get('written')}: order {model.get('order')} of "
+            f"{model.get('full_order')}, {model.get('ports')} ports, max error "
+            f"{model.get('max_error', float('nan')):.2e}")
+    if steps:
+        text += (", steps at " + " ".join(f"{st['frequency']:.3g} Hz" for st in steps)
+                 + f", GMRES {model.get('gmres_iterations')} iterations")
+    return text
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="*", default=[5000, 20000])
@@ -118,6 +135,8 @@ def main() -> None:
                     help="pour cell sizes (mm) to run as well (the size fit is rough below "
                          "0.5 mm: 0.27 mm gives 98,547 segments)")
     ap.add_argument("--dense", action="store_true", help="also the dense path where accepted")
+    ap.add_argument("--augment", action="store_true",
+                    help="run augment (the netlist with the reduced model) instead of report")
     args = ap.parse_args()
     print(f"{'N':>8} {'path':>5} {'wall s':>8} {'peak MiB':>9}  loops (L nH, GMRES it)")
     with tempfile.TemporaryDirectory() as tmp:
@@ -126,7 +145,8 @@ def main() -> None:
                         + [(round(1e6 * c), c) for c in args.cells]):
             cir, routes = write_board(folder, cell)
             for path in (["fast", "dense"] if args.dense else ["fast"]):
-                r = run(cir, routes, path, folder / f"{n}-{path}.json")
+                command = "augment" if args.augment else "report"
+                r = run(cir, routes, path, folder / f"{n}-{path}.json", command)
                 if "error" in r:
                     print(f"{n:>8} {path:>5} {r['wall']:8.1f}  error: {r['error']}")
                     continue
@@ -138,6 +158,8 @@ def main() -> None:
                 segs = rep["summary"]["segments"]
                 print(f"{segs:>8} {path:>5} {r['wall']:8.1f} {r['peak_mib']:9.0f}  {loops}",
                       flush=True)
+                if args.augment:
+                    print(f"{'':>24}  {model_line(rep['model'])}", flush=True)
     print(f"(cores: {os.cpu_count()}; peak RSS of the report process; invented board)")
 
 

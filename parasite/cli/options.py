@@ -131,8 +131,9 @@ inductance_opt = click.option(
     show_default=True,
     help="How the partial inductance is held: dense (the N x N matrix, the reference), fast "
          "(exact near field + multipole far field, memory linear in N; loops by iterative "
-         "solves; augment writes the copper as a reduced model only) or auto (dense when the board has at most 10,000 pieces "
-         "and the dense estimate fits in memory, else fast). See docs/scale.md.")
+         "solves; augment writes the copper as a reduced model only) or auto (dense when the "
+         "board has at most 10,000 pieces and the dense estimate fits in memory, else "
+         "fast). See docs/scale.md.")
 
 
 def loop_progress(quiet: bool) -> Any:

@@ -9,8 +9,8 @@ the matrix is allocated, with what it would need, instead of being killed by the
 operating system part-way.
 
 The fast path (:class:`parasite.extract.operator.FastInductance`, ``augment``,
-``report``, ``check`` and ``batch`` with ``--inductance fast``) holds no N x N array: its memory grows with the
-exact near pairs (sparse near field, its correction, their construction and the
+``report``, ``check`` and ``batch`` with ``--inductance fast``) holds no N x N array:
+its memory grows with the exact near pairs (sparse near field, its correction, their construction and the
 loop solves' sparse preconditioner) and with the segments (the copper graph, the
 multipole sums' points and tree). :func:`fast_bytes` estimates it as
 ``FAST_BYTES_BASE`` (the interpreter, the compiled kernels and the libraries) plus

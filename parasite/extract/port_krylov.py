@@ -113,7 +113,7 @@ def constraint_preconditioner(basis: CycleBasis, op: InductanceOperator, R: np.n
         lu_k = splu(K, permc_spec="COLAMD")
 
         def apply_k(r: np.ndarray) -> np.ndarray:
-            g = np.zeros(nb + nodes, dtype=complex)
+            g = np.zeros((nb + nodes,) + r.shape[1:], dtype=complex)
             g[chords] = r
             return np.asarray(lu_k.solve(g)[:nb])
         return apply_k
@@ -166,6 +166,103 @@ def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega
     return i_p + apply(y), count[0]
 
 
+def solve_cycles_block(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega: float,
+                       atol: np.ndarray, *, restart: int = 100, maxiter: int = 2000,
+                       preconditioner: str = "diagonal",
+                       iteration: Callable[[int, float], None] | None = None
+                       ) -> tuple[np.ndarray, int]:
+    """:func:`solve_cycles` for several injections at once: ``basis.i_p`` (N, k) are
+    currents meeting the current law (first guesses), each column's cycle correction is
+    solved to its own residual ``atol[j]`` (V) by GMRES in lockstep
+    (:func:`lockstep_gmres`: one product of the operator with all the columns per
+    iteration, so the multipole sums run once for them all). Returns the currents (N, k)
+    and the iterations."""
+    R = np.asarray(R, dtype=float)
+    i_p = np.asarray(basis.i_p, dtype=complex).reshape(len(R), -1)
+    if basis.B is None:
+        return i_p, 0
+    Bt = basis.B.T.tocsr()
+    pre = constraint_preconditioner(basis, op, R, omega, preconditioner)
+
+    def matmat(Y: np.ndarray) -> np.ndarray:
+        return np.asarray(Bt @ zmul_full(op, R, omega, pre(Y)))
+
+    rhs = -(Bt @ zmul_full(op, R, omega, i_p))
+    Y, iters, ok = lockstep_gmres(matmat, rhs, np.asarray(atol, dtype=float), restart=restart,
+                                  maxiter=maxiter, iteration=iteration)
+    if not ok:
+        raise ExtractionError(f"the iterative port solves did not converge in {iters} "
+                              f"iterations", key="ports")
+    return i_p + pre(Y), iters
+
+
+def lockstep_gmres(matmat: Callable[[np.ndarray], np.ndarray], b: np.ndarray, tol: np.ndarray,
+                   *, restart: int = 100, maxiter: int = 2000,
+                   iteration: Callable[[int, float], None] | None = None
+                   ) -> tuple[np.ndarray, int, bool]:
+    """GMRES(``restart``) for ``A x_j = b_j``, every column its own Krylov space (Saad &
+    Schultz 1986: Arnoldi by modified Gram-Schmidt, complex Givens rotations for the
+    least-squares residual), all columns advanced together so that each iteration is one
+    ``matmat`` of all of them. Stops when every column's residual is at most ``tol[j]``
+    (absolute), or after ``maxiter`` iterations. Returns ``(x, iterations, converged)``;
+    ``iteration(k, r)`` after each iteration with the largest ``residual / tol``."""
+    n, k = b.shape
+    x = np.zeros((n, k), dtype=complex)
+    total = 0
+    r = b.astype(complex)
+    while True:
+        beta = np.linalg.norm(r, axis=0)
+        if np.all(beta <= tol) or total >= maxiter:
+            return x, total, bool(np.all(beta <= tol))
+        m = min(restart, maxiter - total)
+        V = np.zeros((m + 1, n, k), dtype=complex)
+        H = np.zeros((m + 1, m, k), dtype=complex)
+        cs = np.zeros((m, k))
+        sn = np.zeros((m, k), dtype=complex)
+        g = np.zeros((m + 1, k), dtype=complex)
+        g[0] = beta
+        V[0] = r / np.where(beta > 0, beta, 1.0)
+        j = 0
+        for j in range(m):
+            w = matmat(V[j])
+            for i in range(j + 1):
+                h = np.einsum("nk,nk->k", V[i].conj(), w)
+                H[i, j] = h
+                w -= V[i] * h
+            hn = np.linalg.norm(w, axis=0)
+            H[j + 1, j] = hn
+            V[j + 1] = w / np.where(hn > 0, hn, 1.0)
+            for i in range(j):  # the rotations so far, on the new column
+                a, c = H[i, j].copy(), H[i + 1, j].copy()
+                H[i, j] = cs[i] * a + sn[i] * c
+                H[i + 1, j] = -sn[i].conj() * a + cs[i] * c
+            a, c = H[j, j], H[j + 1, j]
+            d = np.sqrt(np.abs(a) ** 2 + np.abs(c) ** 2)
+            safe = np.where(d > 0, d, 1.0)
+            zero_a = np.abs(a) == 0
+            phase = np.where(zero_a, 1.0, a / np.where(zero_a, 1.0, np.abs(a)))
+            cs[j] = np.where(d > 0, np.abs(a) / safe, 1.0)
+            sn[j] = np.where(d > 0, phase * c.conj() / safe, 0.0)
+            H[j, j] = np.where(d > 0, phase * d, a)
+            H[j + 1, j] = 0.0
+            g[j + 1] = -sn[j].conj() * g[j]
+            g[j] = cs[j] * g[j]
+            total += 1
+            res = np.abs(g[j + 1])
+            if iteration is not None:
+                iteration(total, float(np.max(res / np.where(tol > 0, tol, 1.0))))
+            if np.all(res <= tol):
+                break
+        size = j + 1
+        for col in range(k):
+            diag = np.abs(np.diagonal(H[:size, :size, col]))
+            cut = int(np.argmin(diag > 0)) if np.any(diag == 0) else size  # a breakdown
+            if cut:
+                y = np.linalg.solve(np.triu(H[:cut, :cut, col]), g[:cut, col])
+                x[:, col] += V[:cut, :, col].T @ y
+        r = b - matmat(x)
+
+
 def zmul_full(op: InductanceOperator, R: np.ndarray, omega: float, v: np.ndarray) -> np.ndarray:
-    """(R + j omega L) v (V)."""
-    return R * v + 1j * omega * op.matvec(v)
+    """(R + j omega L) v (V), ``v`` (N,) or (N, k)."""
+    return R.reshape((-1,) + (1,) * (v.ndim - 1)) * v + 1j * omega * op.matvec(v)

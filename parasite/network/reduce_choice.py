@@ -229,9 +229,10 @@ def reduction_report(chosen: str, red: Reduction | None, why: str) -> dict[str, 
 
 def fast_reduction_report(red: Reduction, found: OperatorReduction, why: str) -> dict[str, Any]:
     """:func:`reduction_report` of a fast-path reduction, with how it was found: the
-    greedy steps (frequency, estimated and checked error, GMRES iterations per port),
+    greedy steps (frequency, estimated and checked error, GMRES iterations per block of
+    ports solved together),
     and the estimated error of the written model on the frequency grid."""
-    from parasite.network.reduce_operator import SOLVE_RTOL
+    from parasite.network.reduce_operator import PORT_BLOCK, SOLVE_RTOL
 
     out = reduction_report("reduced", red, why)
     out["error_over_frequency_note"] = (
@@ -244,7 +245,9 @@ def fast_reduction_report(red: Reduction, found: OperatorReduction, why: str) ->
                      "there is within the tolerance")
     out["steps"] = [{"frequency": s["frequency"], "estimated_error": s["estimate"],
                      "error": s["error"], "states_before": s["states"],
-                     "gmres_iterations": list(s["iterations"])} for s in found.steps]
+                     "gmres_iterations_per_block": list(s["iterations"])}
+                    for s in found.steps]
+    out["ports_per_block"] = PORT_BLOCK
     out["gmres_iterations"] = found.iterations
     out["gmres_rtol"] = SOLVE_RTOL
     return out

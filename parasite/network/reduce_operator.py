@@ -51,7 +51,7 @@ import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
 from parasite.extract.operator import InductanceOperator
-from parasite.extract.port_krylov import constraint_preconditioner, solve_cycles
+from parasite.extract.port_krylov import constraint_preconditioner, solve_cycles_block
 from parasite.extract.pour_solve import CycleBasis, cycle_basis
 from parasite.network.reduce import (
     DEFAULT_FMAX,
@@ -171,13 +171,21 @@ def error_estimate(mesh: OperatorMesh, W: np.ndarray, LW: np.ndarray, Rr: np.nda
     return out
 
 
-def _port_solution(item: tuple[np.ndarray, float], *, mesh: OperatorMesh, omega: float,
-                   rtol: float) -> tuple[np.ndarray, int]:
-    """One port's exact currents (B,) at ``omega`` from the first guess ``item[0]``, to
-    the residual ``item[1]`` (V)."""
-    i0, atol = item
-    basis = dataclasses.replace(mesh.basis, i_p=i0)
-    return solve_cycles(basis, mesh.op, mesh.R, omega, rtol=0.0, atol=atol * rtol)
+PORT_BLOCK = 4
+"""Ports solved together (one item of :func:`parasite.schedule.run_map`, one lockstep
+GMRES, :func:`parasite.extract.port_krylov.solve_cycles_block`): the blocks are the
+same wherever they run, so the numbers are too. A product of 8 real columns costs
+about 0.062 s per column at 4,674 segments against 0.079 s for a single complex one
+(2 columns)."""
+
+
+def _port_block(item: tuple[np.ndarray, np.ndarray], *, mesh: OperatorMesh, omega: float,
+                rtol: float) -> tuple[np.ndarray, int]:
+    """Exact currents (B, k) of a block of ports at ``omega`` from the first guesses
+    ``item[0]`` (B, k), each to the residual ``rtol item[1]`` (V)."""
+    first, scale = item
+    basis = dataclasses.replace(mesh.basis, i_p=first)
+    return solve_cycles_block(basis, mesh.op, mesh.R, omega, rtol * scale)
 
 
 def exact_ports(mesh: OperatorMesh, f: float, first: np.ndarray, *, rtol: float = SOLVE_RTOL,
@@ -186,27 +194,29 @@ def exact_ports(mesh: OperatorMesh, f: float, first: np.ndarray, *, rtol: float 
                 ) -> tuple[np.ndarray, np.ndarray, list[int]]:
     """``(I, Z, iterations)``: every port's exact currents (B, P) at ``f`` > 0 Hz from
     the first guesses ``first`` (B, P), the full network's port impedance matrix
-    ``Z = I^T (R + sL) I`` (P, P) ohm, and the GMRES iterations per port."""
+    ``Z = I^T (R + sL) I`` (P, P) ohm, and the GMRES iterations per block of ports
+    (:data:`PORT_BLOCK`)."""
     s = 2j * math.pi * f
     P = mesh.T.shape[1]
     B = mesh.basis.B
     T = mesh.T
     if B is None:
         I = T.astype(complex)
-        iters = [0] * P
+        iters = []
     else:
         Bt = B.T.tocsr()
         base = np.linalg.norm(Bt @ (mesh.R[:, None] * T + s * mesh.op.matvec(T)), axis=0)
-        items = [(first[:, j], float(base[j])) for j in range(P)]
-        task = partial(_port_solution, mesh=mesh, omega=2 * math.pi * f, rtol=rtol)
+        items = [(first[:, j:j + PORT_BLOCK], base[j:j + PORT_BLOCK])
+                 for j in range(0, P, PORT_BLOCK)]
+        task = partial(_port_block, mesh=mesh, omega=2 * math.pi * f, rtol=rtol)
         if progress is not None and runs_here(scheduler):
             out = []
-            for j, item in enumerate(items):
+            for item in items:
                 out += run_map(task, [item], scheduler=scheduler)
-                progress(j + 1, P)
+                progress(sum(o[0].shape[1] for o in out), P)
         else:
             out = run_map(task, items, scheduler=scheduler)
-        I = np.column_stack([o[0] for o in out]) if out else np.zeros((len(T), 0), complex)
+        I = np.hstack([o[0] for o in out]) if out else np.zeros((len(T), 0), complex)
         iters = [int(o[1]) for o in out]
     Z = I.T @ (mesh.R[:, None] * I + s * mesh.op.matvec(I))
     return I, 0.5 * (Z + Z.T), iters
