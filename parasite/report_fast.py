@@ -14,8 +14,9 @@ all the probes' lead vectors and the loops' currents).
 
 Left out (each named in ``inductance.left_out`` and in the text report): the circuit
 model (``branches``, the written couplings, the coupling threshold's choice and the
-reduced model): they are the augmented netlist's, whose elements need the dense matrix
-(``augment`` stays dense); couplings of far pairs (weak: beyond the sum of the near
+reduced model): they are the augmented netlist's (``augment --inductance fast`` builds
+the reduced model, :func:`parasite.augment.augment_fast`, and its report has them);
+couplings of far pairs (weak: beyond the sum of the near
 radii); the ranking of each loop's pair terms beyond the exact near field.
 
 Estimates from closed-form partial inductances: confirm them by measurement.
@@ -40,8 +41,8 @@ path chooses its threshold from the circuit model, which the fast path does not 
 
 LEFT_OUT = (
     ("circuit model", "the branches, written couplings, the coupling threshold's choice and "
-     "the reduced model belong to the augmented netlist, whose elements need the dense "
-     "matrix: run `parasite augment` on a coarser mesh for them"),
+     "the reduced model belong to the augmented netlist: `parasite augment` builds them "
+     "(on this path the reduced model only)"),
     ("far couplings", "segment couplings are listed from the exact near field only; pairs "
      "beyond the sum of their near radii are weak and are not listed"),
     ("loop pair terms", "each loop's pair terms are ranked over the exact near field only"),

@@ -113,8 +113,9 @@ def test_check_exit_codes_agree(stage: tuple[str, str]) -> None:
 def test_fast_path_refused_when_memory_is_short(tmp_path: Path,
                                                 monkeypatch: pytest.MonkeyPatch) -> None:
     """PARASITE_MEMORY_LIMIT of 1 MB: ``report --inductance fast`` exits 1 naming the
-    routes file and what it would need, writes nothing; ``augment`` (dense only) says
-    to use the fast path or coarser cells."""
+    routes file and what it would need, writes nothing; ``augment --inductance dense``
+    says to use the fast path or coarser cells; ``augment`` (auto) is refused by the
+    fast path's estimate."""
     monkeypatch.setenv("PARASITE_MEMORY_LIMIT", "1meg")
     cir, routes = str(ROUTES / "pour_plane.cir"), str(ROUTES / "pour_plane.routes.toml")
     out = tmp_path / "r.json"
@@ -123,6 +124,11 @@ def test_fast_path_refused_when_memory_is_short(tmp_path: Path,
     assert res.exit_code == 1 and not out.exists()
     assert f"{routes}: error:" in res.output and "near pairs" in res.output
     assert "cell" in res.output and "GiB" in res.output
-    res = CliRunner().invoke(main, ["augment", cir, routes, "-o", str(tmp_path / "a.cir"), "-q"])
+    res = CliRunner().invoke(main, ["augment", cir, routes, "-o", str(tmp_path / "a.cir"),
+                                    "--inductance", "dense", "-q"])
     assert res.exit_code == 1 and "--inductance fast" in res.output
+    assert not (tmp_path / "a.cir").exists()
+    # auto: past the dense estimate the fast one decides, and refuses too
+    res = CliRunner().invoke(main, ["augment", cir, routes, "-o", str(tmp_path / "a.cir"), "-q"])
+    assert res.exit_code == 1 and "near pairs" in res.output and "cell" in res.output
     assert not (tmp_path / "a.cir").exists()
