@@ -71,9 +71,11 @@ SOLVE_RTOL = 1e-4
 """Each port's GMRES stops when the cycle residual is this fraction of the residual of
 the port's forest currents alone (``B^T (R + sL) T``). The impedance is stationary in
 the currents, so its error is of the order of the residual squared. Measured on the
-benchmark board at 2,222 segments (7 ports, benchmarks/bench_board_scale.py's board,
-dense reference): 145 iterations in all and the model within 1.5e-4 of the full
-network, against 278 iterations and 1.4e-4 at 1e-6."""
+benchmark board (7 ports, benchmarks/bench_board_scale.py's board) with the multipole
+operator at 9,865 segments: 64 lockstep iterations, 91 s, the model's stated error
+1.31e-3 and 4.95e-3 from the dense network; at 1e-6 113 iterations, 146 s, 1.16e-3 and
+4.96e-3 (that difference is the operator's own: the full network held as the operator
+is 4.94e-3 from the dense one on its smallest entries at 2.8 kHz, 3e-5 of its largest)."""
 
 
 @dataclass(frozen=True)
@@ -176,7 +178,7 @@ PORT_BLOCK = 4
 GMRES, :func:`parasite.extract.port_krylov.solve_cycles_block`): the blocks are the
 same wherever they run, so the numbers are too. Measured at 4,674 segments (the
 benchmark board, eps 1e-3): a product of 8 real columns (4 complex) 0.059-0.063 s per
-column, of 2 (one complex) 0.077-0.082 s; at 10,000 segments 0.14 against 0.22 s."""
+column, of 2 (one complex) 0.077-0.082 s; at 9,865 segments 0.14 against 0.22 s."""
 
 
 def _port_block(item: tuple[np.ndarray, np.ndarray], *, mesh: OperatorMesh, omega: float,
