@@ -97,12 +97,18 @@ def test_a_million_points_is_refused_before_parsing(tmp_path):
 
 def test_too_many_pieces_are_refused_before_the_matrix(tmp_path, monkeypatch):
     """The piece limit (10,000: an 800 MB matrix) lowered to 1 for the test;
-    the board's one trace split at its pins makes more pieces than that."""
+    the board's one trace split at its pins makes more pieces than that: the dense
+    path refuses it; ``auto`` holds it as the operator instead."""
     import geometry.limits
 
     monkeypatch.setattr(geometry.limits, "MAX_PIECES", 1)
     put(tmp_path, "b.cir", BOARD_CIR)
     put(tmp_path, "b.routes.toml", board_routes(point="[0, 0], [5, 0], [10, 0]"))
-    r = _augment(tmp_path)
+    r = run_cli(tmp_path, "augment", "b.cir", "b.routes.toml", "-o", "out.cir", "-q",
+                "--inductance", "dense")
     assert r.code == 1 and "pieces" in r.stderr and r.stderr.startswith("b.routes.toml")
     assert not r.written
+    # auto takes the inductance operator past the dense path's limit, and writes
+    r = _augment(tmp_path)
+    assert r.code == 0 and r.written == {"out.cir"}
+    assert "reduced model" in (tmp_path / "out.cir").read_text()
