@@ -34,7 +34,7 @@ from shapely.geometry import Polygon
 
 from geometry.locate import KeyPath
 from geometry.model import Point2
-from geometry.routes import Context
+from geometry.routes_context import Context
 
 POUR_KEYS = ("net", "layer", "outline", "holes", "cell", "name")
 POUR_REQUIRED = ("net", "layer", "outline")
