@@ -20,6 +20,8 @@ Neumann's formula). Lengths in m, inductances in H.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numba as nb
 import numpy as np
 
@@ -299,38 +301,54 @@ def fill_pairs(ii: np.ndarray, jj: np.ndarray, out: np.ndarray, img: np.ndarray,
 
 
 @nb.njit(cache=True)
-def _two_point(a: int, b: int, mid: np.ndarray, d: np.ndarray) -> float:
-    """Neumann's formula by 2-point Gauss-Legendre along both centre lines (H), the
-    points of a and b never coinciding being the caller's business."""
+def _line_points(a: int, b: int, mid: np.ndarray, d: np.ndarray, off: np.ndarray,
+                 ts: np.ndarray) -> float:
+    """Neumann's formula (H) by the far field's points: 2-point Gauss-Legendre along
+    both centre lines, each point at ``mid +- x d + t off`` for every ``t`` of ``ts``
+    (``(-1, 1)``: split in two across the width, the section's second moment there;
+    ``(0,)``: on the centre line), equal weights, every pair of points; for ``a == b`` a
+    point's own term is left out (as the far-field sum leaves it out)."""
     x = 0.5 / np.sqrt(3.0)
+    nt = ts.size
+    wgt = 1.0 / (4.0 * nt * nt)
     acc = 0.0
     for sk in (-1.0, 1.0):
-        for sl in (-1.0, 1.0):
-            rx = mid[a, 0] + sk * x * d[a, 0] - mid[b, 0] - sl * x * d[b, 0]
-            ry = mid[a, 1] + sk * x * d[a, 1] - mid[b, 1] - sl * x * d[b, 1]
-            rz = mid[a, 2] + sk * x * d[a, 2] - mid[b, 2] - sl * x * d[b, 2]
-            acc += 0.25 / np.sqrt(rx * rx + ry * ry + rz * rz)
+        for tk in ts:
+            for sl in (-1.0, 1.0):
+                for tl in ts:
+                    if a == b and sk == sl and tk == tl:
+                        continue
+                    rx = (mid[a, 0] + sk * x * d[a, 0] + tk * off[a, 0]
+                          - mid[b, 0] - sl * x * d[b, 0] - tl * off[b, 0])
+                    ry = (mid[a, 1] + sk * x * d[a, 1] + tk * off[a, 1]
+                          - mid[b, 1] - sl * x * d[b, 1] - tl * off[b, 1])
+                    rz = (mid[a, 2] + sk * x * d[a, 2] + tk * off[a, 2]
+                          - mid[b, 2] - sl * x * d[b, 2] - tl * off[b, 2])
+                    acc += wgt / np.sqrt(rx * rx + ry * ry + rz * rz)
     return MU0_4PI * _dot(d, a, d, b) * acc
 
 
 @nb.njit(cache=True, parallel=True)
-def two_point_entries(ii: np.ndarray, jj: np.ndarray, img: np.ndarray, image_sign: float,
-                      mid: np.ndarray, d: np.ndarray) -> np.ndarray:
-    """What the point-source far field gives for entry (ii[k], jj[k]): the 2-point line
-    quadrature of every term, images symmetrised as in :func:`_entry_value`; on the
-    diagonal (ii == jj) the direct term keeps only the two cross terms of the segment's
-    own points (a point's own term is left out by the far-field sum)."""
+def point_entries(ii: np.ndarray, jj: np.ndarray, img: np.ndarray, image_sign: float,
+                  mid: np.ndarray, d: np.ndarray, off: np.ndarray,
+                  ts: np.ndarray) -> np.ndarray:
+    """What the point-source far field gives for entry (ii[k], jj[k]): every term by the
+    far field's points (:func:`_line_points`), images symmetrised as in
+    :func:`_entry_value`; on the diagonal (ii == jj) the direct term without a point's
+    own term (the far-field sum leaves it out)."""
     out = np.empty(ii.size)
-    x = 0.5 / np.sqrt(3.0)
     for k in nb.prange(ii.size):
         i, j = ii[k], jj[k]
-        if i == j:
-            ln2 = _dot(d, i, d, i)
-            direct = MU0_4PI * ln2 * 0.5 / (2.0 * x * np.sqrt(ln2))
-        else:
-            direct = _two_point(i, j, mid, d)
+        direct = _line_points(i, j, mid, d, off, ts)
         ci, ri = img[j], img[i]
-        a = _two_point(i, ci, mid, d) if ci >= 0 else 0.0
-        b = _two_point(ri, j, mid, d) if ri >= 0 else 0.0
+        a = _line_points(i, ci, mid, d, off, ts) if ci >= 0 else 0.0
+        b = _line_points(ri, j, mid, d, off, ts) if ri >= 0 else 0.0
         out[k] = direct + image_sign * 0.5 * (a + b)
     return out
+
+
+def width_offsets(c: Any) -> np.ndarray:
+    """(K, 3) m: each conductor's offset across its width, ``w / sqrt(12)`` along its
+    width axis: two points at +-offset have the second moment of a uniform width w
+    (for a round conductor its equal-moment square's side)."""
+    return np.ascontiguousarray((c.width / np.sqrt(12.0))[:, None] * c.w_dir)

@@ -9,11 +9,12 @@ factor 2, so that a ball of ``r_i + R_class`` holds at most a few times the pair
 must; Bentley, "Multidimensional binary search trees used for associative searching",
 CACM 18, 1975, as ``scipy.spatial.cKDTree``), kept when within the sum of the radii;
 their exact entries (the dense path's formulas) and the value of the far-field sum
-for the same pairs (2-point Gauss-Legendre). A block returns its upper triangle
-(``j > i``) as a compact CSR piece (int32 columns, float64 data); :func:`assemble`
-writes the full symmetric CSR matrix from the pieces in one compiled pass (no global
-pair list, every pair evaluated once), and the correction matrix (exact minus far-field
-value) with its own data array on the same column indices. SI units: m, H.
+for the same pairs (the far field's points, :func:`parasite.extract.kernels.point_entries`).
+A block returns its upper triangle (``j > i``) as a compact CSR piece (int32 columns,
+float64 data); :func:`assemble` writes the full symmetric CSR matrix from the pieces in
+one compiled pass (no global pair list, every pair evaluated once), and the correction
+matrix (exact minus far-field value) with its own data array on the same column
+indices. SI units: m, H.
 """
 
 from __future__ import annotations
@@ -166,8 +167,9 @@ class NearBlock:
     its near pairs, their exact entries and far-field values."""
 
     def __init__(self, c: _Conductors, img: np.ndarray, mz: np.ndarray,
-                 pairs: NearPairs) -> None:
+                 pairs: NearPairs, ts: np.ndarray) -> None:
         self.c, self.img, self.mz, self.pairs = c, img, mz, pairs
+        self.ts = ts  # the far field's points across the width (operator.FastInductance)
 
     def __call__(self, rows: tuple[int, int]) -> NearPiece:
         r0, r1 = rows
@@ -175,7 +177,8 @@ class NearBlock:
         with _compiled_threads():
             ii, jj = self.pairs.upper(r0, r1)
             exact = entries(c, self.img, self.mz, ii, jj)
-            far = kernels.two_point_entries(ii, jj, self.img, IMAGE_SIGN, c.mid, c.d)
+            far = kernels.point_entries(ii, jj, self.img, IMAGE_SIGN, c.mid, c.d,
+                                        kernels.width_offsets(c), self.ts)
         indptr = np.zeros(r1 - r0 + 1, dtype=np.int64)
         np.cumsum(np.bincount(ii - r0, minlength=r1 - r0), out=indptr[1:])
         return NearPiece(r0, r1, indptr, jj.astype(np.int32), exact, exact - far)

@@ -9,9 +9,13 @@ Two implementations of one interface (:class:`InductanceOperator`):
   simulations", J. Comput. Phys. 73, 1987; the library ``fmm3dpy``, Laplace kernel
   1/(4 pi r)). The far-field term of a pair is Neumann's formula
   ``M = mu0/(4 pi) (d_a . d_b) E[1/r]`` by 2-point Gauss-Legendre quadrature along both
-  centre lines (the rule the dense path uses for far pairs), that is the potential of
-  point sources carrying the vector charges ``w_l d_b x_b`` (three densities) at the
-  quadrature points of every segment, images included. Pairs whose horizontal
+  centre lines, each point split in two across the conductor's width at ``+-w/sqrt(12)``
+  (``width_points``; equal weights): the four points of a conductor have its second
+  moments along and across it, so ``E[1/r]`` is right to second order in both
+  sections, as the dense path's far rule with its section correction
+  (:func:`parasite.extract.pairs.far_mutual`). That is the potential of point sources
+  carrying the vector charges ``w_l d_b x_b`` (three densities) at the points of every
+  segment, images included. Pairs whose horizontal
   midpoint distance is below the sum of their near radii get their exact entry (the same
   formulas as the dense path, :mod:`parasite.extract.kernels`) and the far-field
   sum's own value for them is subtracted: ``L x = S x + F x - S_F x``. ``S`` is built
@@ -20,11 +24,12 @@ Two implementations of one interface (:class:`InductanceOperator`):
   held as a full symmetric CSR matrix; ``S - S_F`` shares its index arrays.
 
 The near radius of a segment of length l and section size h is
-``max(3.5 l, l + section_ratio h)``; beyond the sum of two radii a pair is far by the dense path's
-rules (:data:`parasite.extract.pairs.FAR_RULES`) except for its second-order section
-correction, below ``(h/D)^2/6`` relative per pair, which the default
-``section_ratio = 10`` bounds by 1.7e-3 per pair (the tests check the whole product
-against the dense one, docs/scale.md). SI units: m, H.
+``max(3.5 l, l + section_ratio h)``; beyond the sum of two radii a pair is far. Without
+the split across the width (``width_points=False``, the centre lines only) the far
+field leaves out the pairs' section average, about ``(h/D)^2/6`` relative per pair, so
+the near radius must then be wide (the default ``section_ratio = 10`` bounds it by
+1.7e-3 per pair); with it the remainder is fourth order (the tests check the whole
+product against the dense one, docs/scale.md). SI units: m, H.
 """
 
 from __future__ import annotations
@@ -56,23 +61,27 @@ BOARD_SECTION_RATIO = 3.0
 as wide as it is long, so the default 10 makes nearly every pair of a meshed board near;
 at 3 the loop inductances of the benchmark's meshed power stage stay within 1e-4 of the
 dense path (benchmarks/bench_board_scale.py, tests/loops/test_loops_operator.py)."""
-BOARD_NEAR_SCALE = 0.7
-"""``near_scale`` of the same path: the near radii times 0.7, so that two equal cells
-are near below 4.9 lengths apart (the dense path's far rule starts at 3.5); pairs
-beyond take the 2-point far-field rule without its section correction. At 0.6 (4,674
-segments, 0.87 M near pairs within the sum of the radii) the loop inductances stayed
-within 3.6e-4 of the dense path, but a probe's pick-up, first order in the loop's
-currents, was 2.8e-3 off on fixtures/routes/pour_plane; at 0.7 8.4e-4 (0.8: 6.2e-4),
-for about 1.36 times the near pairs (benchmarks/RESULTS.md)."""
+BOARD_NEAR_SCALE = 0.5
+"""``near_scale`` of the same path: the near radii times 0.5, so that two equal cells
+are near below 3.5 lengths apart (where the dense path's far rule starts). With the far
+field's points split across the width (``width_points``), measured on the benchmark
+board at 4,674 segments against the dense matrix: a product within 1.7e-5 (0.62 M near
+pairs; at 0.7 1.3e-5 with 1.13 M, at 0.4 3.1e-5 with 0.41 M), the loop inductances
+within 1.1e-5, a probe's pick-up on fixtures/routes/pour_plane within 1.1e-3 (7.3e-4 at
+0.7). With the centre lines only it was 0.7 for 4.0e-4 (benchmarks/RESULTS.md)."""
 BOARD_EPS = 1e-3
 """``eps`` of the multipole sums on the same path. Measured on the benchmark board (4,674
 segments): one product within 1.5e-5 of the sums at 1e-10, the loop inductances within
 9e-6 of those at 1e-7, the loop solves 4 times quicker than at 1e-7 (2 at 1e-4):
-well inside the near field's own 3.6e-4 (``BOARD_NEAR_SCALE``) and the 1e-4 asked of a
-product (tests/extract/test_operator.py checks a product at this eps against the dense
-matrix)."""
+well inside the 1e-4 asked of a product (tests/extract/test_operator.py checks a
+product at this eps against the dense matrix)."""
 GL2 = 0.5 / np.sqrt(3.0)
 """The 2-point Gauss-Legendre nodes on [-1/2, 1/2] are -GL2, +GL2 (weights 1/2)."""
+ACROSS = {True: (-1.0, 1.0), False: (0.0,)}
+"""The far field's points of a conductor are ``mid + s GL2 d + t off`` for ``s = +-1``
+and each ``t`` here, equal weights (``off`` across the width,
+:func:`parasite.extract.kernels.width_offsets`): with ``width_points`` two across the
+width (the section's second moment there), else on the centre line."""
 
 
 class InductanceOperator(Protocol):
@@ -126,7 +135,7 @@ class FastInductance:
     def __init__(self, arrays: SegmentArrays, *, section_ratio: float = 10.0,
                  eps: float = 1e-7, progress: Callable[[int, int], None] | None = None,
                  near_scale: float = 1.0, block_rows: int = BLOCK_ROWS,
-                 scheduler: str | Any | None = None) -> None:
+                 scheduler: str | Any | None = None, width_points: bool = True) -> None:
         c, img, mz, diag = tables(arrays)
         n = len(arrays)
         self.shape = (n, n)
@@ -139,7 +148,10 @@ class FastInductance:
         self.near_scale = near_scale
         # the near field block by block of rows (parasite.extract.near_field), in this
         # process or on the Dask cluster of ``scheduler`` (parasite.schedule)
-        task = NearBlock(c, img, mz, NearPairs(c.mid[:n, :2], radius))
+        self.width_points = width_points
+        ts = np.array(ACROSS[width_points])
+        self._slots = [(sk, tk) for sk in (-1.0, 1.0) for tk in ts]
+        task = NearBlock(c, img, mz, NearPairs(c.mid[:n, :2], radius), ts)
         blocks = row_blocks(n, block_rows)
         if progress is not None and runs_here(scheduler):
             pieces = []
@@ -152,15 +164,18 @@ class FastInductance:
                 progress(n, n)
         del task
         diag_idx = np.arange(n, dtype=np.int64)
-        f_diag = kernels.two_point_entries(diag_idx, diag_idx, img, IMAGE_SIGN, c.mid, c.d)
+        off = kernels.width_offsets(c)
+        f_diag = kernels.point_entries(diag_idx, diag_idx, img, IMAGE_SIGN, c.mid, c.d, off,
+                                       ts)
         self.near, self._corr = assemble(pieces, n, diag, f_diag)
-        # quadrature points: segments, then their images (2 per conductor)
+        # the far field's points: segments, then their images; len(_slots) per conductor
         has = img >= 0
         self._src = np.concatenate([np.flatnonzero(np.ones(n, bool)), img[has]])
         self._n_img = int(has.sum())
         self._has = has
-        m, d = c.mid[self._src], c.d[self._src]
-        self._points = np.concatenate([m - GL2 * d, m + GL2 * d]).T.copy()  # (3, 2 K)
+        m, d, o = c.mid[self._src], c.d[self._src], off[self._src]
+        self._points = np.concatenate([m + sk * GL2 * d + tk * o
+                                       for sk, tk in self._slots]).T.copy()
         self._d = d
 
     @property
@@ -208,6 +223,7 @@ class FastInductance:
         n = self.shape[0]
         k = self._src.size
         m = x.shape[1]
+        points = len(self._slots)
         xs = np.concatenate([x, x[self._has]])  # (K, m): each image carries its segment's
         direct = np.zeros((m, n))
         a_term = np.zeros((m, n))  # M(i, j') x_j: images' charges at the segments' points
@@ -217,25 +233,25 @@ class FastInductance:
             if sel.size == 0:
                 continue
             seg, img = sel[sel < n], sel[sel >= n]
-            pts = np.concatenate([self._points[:, sel], self._points[:, k + sel]], axis=1)
-            q = (0.5 * self._d[sel, comp])[:, None] * xs[sel]  # (s, m) vector charges
+            pts = np.concatenate([self._points[:, p * k + sel] for p in range(points)], axis=1)
+            q = (self._d[sel, comp] / points)[:, None] * xs[sel]  # (s, m) vector charges
             slots = [(seg.size, 0)] + ([(img.size, 1)] if img.size else [])
-            dens = np.zeros((m, len(slots), 2 * sel.size))
+            dens = np.zeros((m, len(slots), points * sel.size))
             is_seg = sel < n
             for col, (count, slot) in enumerate(slots):
                 if count == 0:
                     continue
                 mask = is_seg if slot == 0 else ~is_seg
                 qc = np.where(mask[:, None], q, 0.0).T  # (m, s)
-                dens[:, col, :sel.size] = qc
-                dens[:, col, sel.size:] = qc
+                for p in range(points):
+                    dens[:, col, p * sel.size:(p + 1) * sel.size] = qc
             nd = m * len(slots)
-            charges = dens.reshape(nd, 2 * sel.size)
+            charges = dens.reshape(nd, points * sel.size)
             out = fmm3dpy.lfmm3d(eps=self.eps, sources=pts, pg=1, nd=nd,
                                  charges=charges[0] if nd == 1 else charges)
-            pot = np.asarray(out.pot).reshape(m, len(slots), 2 * sel.size) * (4.0 * np.pi)
-            pot = pot[:, :, :sel.size] + pot[:, :, sel.size:]  # both points of a conductor
-            w = 0.5 * self._d[sel, comp]  # weights 1/2 of the two points
+            pot = (np.asarray(out.pot).reshape(m, len(slots), points, sel.size)
+                   * (4.0 * np.pi)).sum(axis=2)  # every point of a conductor
+            w = self._d[sel, comp] / points  # weights 1/points of the points
             direct[:, seg] += w[is_seg] * pot[:, 0, is_seg]
             if img.size:
                 a_term[:, seg] += w[is_seg] * pot[:, 1, is_seg]
