@@ -100,11 +100,17 @@ def old_operator(arrays, section_ratio: float, near_scale: float):  # noqa: ANN0
 
 
 def _build(arrays, how: str):  # noqa: ANN001, ANN202
-    from parasite.extract.operator import BOARD_NEAR_SCALE, BOARD_SECTION_RATIO, FastInductance
+    from parasite.extract.operator import (
+        BOARD_NEAR_SCALE,
+        BOARD_SECTION_RATIO,
+        BOARD_WIDTH_POINTS,
+        FastInductance,
+    )
 
     if how == "old":
         return old_operator(arrays, BOARD_SECTION_RATIO, BOARD_NEAR_SCALE)
-    return FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE)
+    return FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
+                          width_points=BOARD_WIDTH_POINTS)
 
 
 def _held(op) -> int:  # noqa: ANN001

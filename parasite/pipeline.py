@@ -194,6 +194,7 @@ def extract_fast(
         BOARD_EPS,
         BOARD_NEAR_SCALE,
         BOARD_SECTION_RATIO,
+        BOARD_WIDTH_POINTS,
         FastInductance,
     )
 
@@ -202,8 +203,7 @@ def extract_fast(
         raise ExtractionError("no copper: the inductance operator needs segments",
                               file=inputs.routes_path)
     op = FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
-                        eps=BOARD_EPS,
-                        progress=progress)
+                        eps=BOARD_EPS, width_points=BOARD_WIDTH_POINTS, progress=progress)
     R = resistances(arrays, inputs.routes.copper, frequency)
     check_finite(inputs, op.diagonal(), R)
     return FastExtraction(inputs, op, R, frequency)

@@ -132,6 +132,9 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
             "near_radius": "near_scale max(3.5 l, l + section_ratio h) per segment",
             "section_ratio": getattr(op, "section_ratio", None),
             "near_scale": getattr(op, "near_scale", None),
+            "far_field_points": ("4 per segment: 2 along, split across the width"
+                                 if getattr(op, "width_points", False)
+                                 else "2 per segment, on the centre line"),
             "far_field_eps": op.eps,
             "gmres_rtol": GMRES_RTOL,
             "left_out": [{"what": w, "why": y} for w, y in LEFT_OUT],

@@ -61,20 +61,33 @@ BOARD_SECTION_RATIO = 3.0
 as wide as it is long, so the default 10 makes nearly every pair of a meshed board near;
 at 3 the loop inductances of the benchmark's meshed power stage stay within 1e-4 of the
 dense path (benchmarks/bench_board_scale.py, tests/loops/test_loops_operator.py)."""
-BOARD_NEAR_SCALE = 0.5
-"""``near_scale`` of the same path: the near radii times 0.5, so that two equal cells
-are near below 3.5 lengths apart (where the dense path's far rule starts). With the far
-field's points split across the width (``width_points``), measured on the benchmark
-board at 4,674 segments against the dense matrix: a product within 1.7e-5 (0.62 M near
-pairs; at 0.7 1.3e-5 with 1.13 M, at 0.4 3.1e-5 with 0.41 M), the loop inductances
-within 1.1e-5, a probe's pick-up on fixtures/routes/pour_plane within 1.1e-3 (7.3e-4 at
-0.7). With the centre lines only it was 0.7 for 4.0e-4 (benchmarks/RESULTS.md)."""
+BOARD_NEAR_SCALE = 0.7
+"""``near_scale`` of the same path: the near radii times 0.7, so that two equal cells
+are near below 4.9 lengths apart (the dense path's far rule starts at 3.5); pairs
+beyond take the far field's points on the centre lines (``BOARD_WIDTH_POINTS``). At
+0.6 (4,674 segments, 0.87 M near pairs within the sum of the radii) the loop
+inductances stayed within 3.6e-4 of the dense path, but a probe's pick-up, first order
+in the loop's currents, was 2.8e-3 off on fixtures/routes/pour_plane; at 0.7 8.4e-4
+(0.8: 6.2e-4), for about 1.36 times the near pairs (benchmarks/RESULTS.md)."""
+BOARD_WIDTH_POINTS = False
+"""Whether the same path splits the far field's points across the width (see
+``ACROSS``). Measured on the benchmark board at 4,674 segments against the dense matrix:
+with the split a product is within 1.7e-5 at near radii x0.5 (0.62 M near pairs; 1.3e-5
+at x0.7, 3.1e-5 at x0.4) and the loop inductances within 1.1e-5, against 4.0e-4 and
+3.6e-4 on the centre lines at x0.7; but every multipole sum has twice the points: the
+report of the 22,013-segment board took 220 s instead of 98 s, and the 98,547-cell
+board was still in its third loop after 12.6 minutes (501 s in all on the centre
+lines). The board path keeps the centre lines so that such a board reports within 10
+minutes; ``FastInductance`` splits by default (tests/extract/test_operator.py checks
+both at the board settings)."""
 BOARD_EPS = 1e-3
 """``eps`` of the multipole sums on the same path. Measured on the benchmark board (4,674
 segments): one product within 1.5e-5 of the sums at 1e-10, the loop inductances within
 9e-6 of those at 1e-7, the loop solves 4 times quicker than at 1e-7 (2 at 1e-4):
-well inside the 1e-4 asked of a product (tests/extract/test_operator.py checks a
-product at this eps against the dense matrix)."""
+well inside the near field's own 3.6e-4 (``BOARD_NEAR_SCALE``) and the 1e-4 asked of a
+product (tests/extract/test_operator.py checks a product at this eps against the dense
+matrix). With the far field's points split across the width, 3e-3 gives the same
+product error (1.58e-5) 1.25 times quicker."""
 GL2 = 0.5 / np.sqrt(3.0)
 """The 2-point Gauss-Legendre nodes on [-1/2, 1/2] are -GL2, +GL2 (weights 1/2)."""
 ACROSS = {True: (-1.0, 1.0), False: (0.0,)}

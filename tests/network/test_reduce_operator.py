@@ -24,6 +24,7 @@ from parasite.extract.operator import (
     BOARD_EPS,
     BOARD_NEAR_SCALE,
     BOARD_SECTION_RATIO,
+    BOARD_WIDTH_POINTS,
     DenseInductance,
     FastInductance,
 )
@@ -124,7 +125,8 @@ def test_fast_operator_model_matches_kirchhoff() -> None:
     within 4e-4 of the dense matrix, tests/extract/test_operator.py)."""
     net = _pour()
     fast = FastInductance(net.graph.arrays, section_ratio=BOARD_SECTION_RATIO,
-                          near_scale=BOARD_NEAR_SCALE, eps=BOARD_EPS)
+                          near_scale=BOARD_NEAR_SCALE, eps=BOARD_EPS,
+                          width_points=BOARD_WIDTH_POINTS)
     op = BranchOperator(fast, net.branches)
     assert np.allclose(op.diagonal(), np.diag(net.L), rtol=1e-9)
     x = np.random.default_rng(1).standard_normal(op.shape[0])
