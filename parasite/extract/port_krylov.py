@@ -125,16 +125,13 @@ def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega
                  rtol: float = 1e-10, maxiter: int = 2000, restart: int = 400,
                  preconditioner: str = "diagonal",
                  iteration: Callable[[int, float], None] | None = None,
-                 atol: float = 0.0,
-                 pre: Callable[[np.ndarray], np.ndarray] | None = None,
-                 ) -> tuple[np.ndarray, int]:
+                 atol: float = 0.0) -> tuple[np.ndarray, int]:
     """Branch currents ``i = i_p + B m`` (A) with ``B^T (R + j omega L) i = 0`` solved by
     GMRES(``restart``) with the constraint preconditioner (module docstring), and the
     GMRES iterations it took; ``omega`` > 0 rad/s, ``basis.i_p`` one injection (N,), or
     any currents meeting the current law (a first guess: only the cycle correction is
     solved for). It stops at the residual ``max(rtol |r0|, atol)`` (V; ``r0`` the
-    residual of ``i_p``). ``pre``: the preconditioner of :func:`constraint_preconditioner`
-    when already built for this ``omega``. ``iteration(k, residual)`` after each
+    residual of ``i_p``). ``iteration(k, residual)`` after each
     iteration (the relative residual of the preconditioned system). Raises
     :class:`ExtractionError` when the residual is not reached in ``maxiter``."""
     R = np.asarray(R, dtype=float)
@@ -142,9 +139,7 @@ def solve_cycles(basis: CycleBasis, op: InductanceOperator, R: np.ndarray, omega
     if basis.B is None:
         return i_p.astype(complex), 0
     Bt = basis.B.T.tocsr()
-    if pre is None:
-        pre = constraint_preconditioner(basis, op, R, omega, preconditioner)
-    apply = pre
+    apply = constraint_preconditioner(basis, op, R, omega, preconditioner)
 
     c = Bt.shape[0]
     A = LinearOperator((c, c), matvec=lambda y: Bt @ zmul_full(op, R, omega, apply(y)),

@@ -117,7 +117,6 @@ class OperatorReduction:
     steps: list[dict[str, Any]] = field(default_factory=list)  # per greedy step
     grid: np.ndarray = field(default_factory=lambda: np.zeros(0))  # Hz
     estimate: np.ndarray = field(default_factory=lambda: np.zeros(0))  # on grid, final model
-    states: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))  # X (B, k)
 
     @property
     def iterations(self) -> int:
@@ -239,8 +238,7 @@ def _project(mesh: OperatorMesh, W: np.ndarray, LW: np.ndarray) -> tuple[np.ndar
 def reduce_operator(mesh: OperatorMesh, *, f_max: float = DEFAULT_FMAX,
                     tolerance: float = DEFAULT_TOLERANCE, max_steps: int = MAX_STEPS,
                     rtol: float = SOLVE_RTOL, scheduler: str | Any | None = None,
-                    status: Callable[[str], None] | None = None,
-                    start: np.ndarray | None = None) -> OperatorReduction:
+                    status: Callable[[str], None] | None = None) -> OperatorReduction:
     """The reduced model of ``mesh`` (module docstring) within ``tolerance`` of the full
     network at the frequency of largest estimated error, on the grid up to ``f_max``;
     after ``max_steps`` exact solves the model is returned as it is (its errors say how
@@ -254,8 +252,6 @@ def reduce_operator(mesh: OperatorMesh, *, f_max: float = DEFAULT_FMAX,
     X = np.zeros((len(T), 0))
     if P and c:
         X = orth_block(X, significant(i_dc - T, np.linalg.norm(i_dc, axis=0)))
-        if start is not None and start.shape[1]:
-            X = np.hstack([X, orth_block(X, start)])
     W = np.hstack([T, X])
     LW = np.asarray(mesh.op.matvec(W)) if W.shape[1] else np.zeros_like(W)
     steps: list[dict[str, Any]] = []
@@ -301,4 +297,4 @@ def reduce_operator(mesh: OperatorMesh, *, f_max: float = DEFAULT_FMAX,
         model.min_eig_R = float(np.linalg.eigvalsh(Rr).min())
         model.min_eig_L = float(np.linalg.eigvalsh(Lr).min())
     estimate = error_estimate(mesh, W, LW, Rr, Lr, grid) if (P and c) else np.zeros(len(grid))
-    return OperatorReduction(model, steps, grid, estimate, X)
+    return OperatorReduction(model, steps, grid, estimate)
