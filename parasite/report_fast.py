@@ -53,13 +53,10 @@ def near_couplings(near: sp.spmatrix, diag: np.ndarray,
                    min_coupling: float) -> list[tuple[int, int, float, float]]:
     """Segment pairs ``i < j`` of the near field with ``|k| >= min_coupling``:
     ``(i, j, mutual H, k)``, in row order as :func:`parasite.report.segment_couplings`."""
-    coo = sp.triu(near, k=1).tocoo()
-    d = np.sqrt(diag)
-    k = coo.data / (d[coo.row] * d[coo.col])
-    keep = np.abs(k) >= min_coupling
-    rows, cols, m, k = coo.row[keep], coo.col[keep], coo.data[keep], k[keep]
-    order = np.lexsort((cols, rows))
-    return [(int(rows[p]), int(cols[p]), float(m[p]), float(k[p])) for p in order]
+    from parasite.network.couplings import near_field_couplings
+
+    rows, cols, m, k = near_field_couplings(near, diag, min_coupling)
+    return list(zip(rows.tolist(), cols.tolist(), m.tolist(), k.tolist(), strict=True))
 
 
 def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = None,

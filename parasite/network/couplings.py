@@ -26,6 +26,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.linalg
+import scipy.sparse as sp
 
 from parasite.errors import ExtractionError
 
@@ -287,3 +288,17 @@ def select_couplings(Lb: np.ndarray, min_coupling: float, leads: np.ndarray,
             f"could not write a positive definite inductance matrix with the probe leads "
             f"(smallest eigenvalue {out.min_eigenvalue:.3e} H)")
     return out
+
+
+def near_field_couplings(near: sp.spmatrix, diag: np.ndarray, k_min: float
+                         ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """``(i, j, mutual H, k)`` arrays of the pairs ``i < j`` stored in a sparse near
+    field with ``|k| >= k_min``, ``k = M_ij / sqrt(L_ii L_jj)`` (``diag`` in H), in row
+    order."""
+    coo = sp.triu(near, k=1).tocoo()
+    d = np.sqrt(diag)
+    k = coo.data / (d[coo.row] * d[coo.col])
+    keep = np.abs(k) >= k_min
+    rows, cols, m, k = coo.row[keep], coo.col[keep], coo.data[keep], k[keep]
+    order = np.lexsort((cols, rows))
+    return rows[order], cols[order], m[order], k[order]

@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from parasite.errors import ExtractionError
-from parasite.network.couplings import coupling_blocks
+from parasite.network.couplings import coupling_blocks, near_field_couplings
 from parasite.network.ladder_network import ladder_model_size, ladder_network
 from parasite.network.ladders import BranchLadders
 from parasite.network.ports import probe_nodes
@@ -122,7 +122,8 @@ def reduce_fast(network: Network, *, f_max: float = DEFAULT_FMAX,
     n_res = len(real.resistors) + len(real.internal_R)
     n_k = int((real.k != 0).sum()) // 2
     near = network.op.near if hasattr(network.op, "near") else None
-    strong = 0 if near is None else near_strong_pairs(near, network.op.diagonal(), CANDIDATES[0])
+    strong = (0 if near is None else
+              len(near_field_couplings(near, network.op.diagonal(), CANDIDATES[0])[0]))
     red = Reduction(model, real, len(network.branches) + strong,
                     len(real.inductances) + n_k + n_res, full_exact=False,
                     method="congruence projection on exact port solutions, inductance as an "
@@ -131,15 +132,6 @@ def reduce_fast(network: Network, *, f_max: float = DEFAULT_FMAX,
                              f"solved; estimated {float(found.estimate.max()):.2e} at most on "
                              f"the grid"))
     return red, found
-
-
-def near_strong_pairs(near: Any, diag: np.ndarray, k_min: float) -> int:
-    """Pairs ``i < j`` of a sparse near field with ``|k| >= k_min`` (> 0)."""
-    import scipy.sparse as sp
-
-    coo = sp.triu(near, k=1).tocoo()
-    k = np.abs(coo.data) / np.sqrt(diag[coo.row] * diag[coo.col])
-    return int(np.count_nonzero((k >= k_min) & (k > 0)))
 
 
 def full_model_size(network: Network) -> int:

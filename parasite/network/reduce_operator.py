@@ -43,7 +43,7 @@ import dataclasses
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from functools import partial
+from functools import cached_property, partial
 from typing import Any
 
 import numpy as np
@@ -91,6 +91,11 @@ class OperatorMesh:
     @property
     def T(self) -> np.ndarray:
         return np.asarray(self.basis.i_p)
+
+    @cached_property
+    def Bt(self) -> sp.csr_matrix | None:
+        """``B^T`` (c, B) as CSR, formed once."""
+        return None if self.basis.B is None else self.basis.B.T.tocsr()
 
     @property
     def cycles(self) -> int:
@@ -158,7 +163,7 @@ def error_estimate(mesh: OperatorMesh, W: np.ndarray, LW: np.ndarray, Rr: np.nda
     out = np.zeros(len(freqs))
     if B is None or P == 0:
         return out
-    Bt = B.T.tocsr()
+    Bt = mesh.Bt
     chords = mesh.basis.chords
     RW = mesh.R[:, None] * W
     for n, f in enumerate(freqs):
@@ -189,12 +194,13 @@ def _port_block(item: tuple[np.ndarray, np.ndarray], *, mesh: OperatorMesh, omeg
     return solve_cycles_block(basis, mesh.op, mesh.R, omega, rtol * scale)
 
 
-def exact_ports(mesh: OperatorMesh, f: float, first: np.ndarray, *, rtol: float = SOLVE_RTOL,
-                scheduler: str | Any | None = None,
+def exact_ports(mesh: OperatorMesh, f: float, first: np.ndarray, LT: np.ndarray, *,
+                rtol: float = SOLVE_RTOL, scheduler: str | Any | None = None,
                 progress: Callable[[int, int], None] | None = None
                 ) -> tuple[np.ndarray, np.ndarray, list[int]]:
     """``(I, Z, iterations)``: every port's exact currents (B, P) at ``f`` > 0 Hz from
-    the first guesses ``first`` (B, P), the full network's port impedance matrix
+    the first guesses ``first`` (B, P) (``LT``: ``L T``, the product of the forest
+    currents, V s), the full network's port impedance matrix
     ``Z = I^T (R + sL) I`` (P, P) ohm, and the GMRES iterations per block of ports
     (:data:`PORT_BLOCK`)."""
     s = 2j * math.pi * f
@@ -205,8 +211,7 @@ def exact_ports(mesh: OperatorMesh, f: float, first: np.ndarray, *, rtol: float 
         I = T.astype(complex)
         iters = []
     else:
-        Bt = B.T.tocsr()
-        base = np.linalg.norm(Bt @ (mesh.R[:, None] * T + s * mesh.op.matvec(T)), axis=0)
+        base = np.linalg.norm(mesh.Bt @ (mesh.R[:, None] * T + s * LT), axis=0)
         items = [(first[:, j:j + PORT_BLOCK], base[j:j + PORT_BLOCK])
                  for j in range(0, P, PORT_BLOCK)]
         task = partial(_port_block, mesh=mesh, omega=2 * math.pi * f, rtol=rtol)
@@ -272,7 +277,7 @@ def reduce_operator(mesh: OperatorMesh, *, f_max: float = DEFAULT_FMAX,
                 status(f"reduced model: {f:.3g} Hz, port {done} of {total} solved")
 
         first = W @ reduced_coefficients(Rr, Lr, P, f)
-        I, Zx, iters = exact_ports(mesh, f, first, rtol=rtol, scheduler=scheduler,
+        I, Zx, iters = exact_ports(mesh, f, first, LW[:, :P], rtol=rtol, scheduler=scheduler,
                                    progress=port_done if status is not None else None)
         solved[f] = Zx
         err = float(port_error(port_impedance(Rr, Lr, P, np.array([f])), Zx[None])[0])
