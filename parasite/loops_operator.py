@@ -3,7 +3,8 @@
 
 Same model and same results as :func:`parasite.loops.loop_results` (see its module
 docstring), with ``L`` only applied (:class:`parasite.extract.operator.FastInductance`:
-exact near field, far field by multipoles), never formed:
+exact near field, far field on layer grids by FFT or by multipoles), never
+formed:
 
 * the currents of a loop's nets are ``i = i_p + B m`` (particular solution on a
   spanning forest and sparse fundamental cycles,
@@ -183,6 +184,7 @@ def solver_entry(op: Any, frequency: float, iterations: int, rtol: float) -> dic
                      else "resistive (0 Hz), sparse LU"),
         "iterations": int(iterations),
         "rtol": rtol if frequency > 0 else None,
+        "far_field": getattr(op, "far_field", None),
         "far_field_eps": getattr(op, "eps", None),
         "pair_terms": PAIR_SCOPE,
     }

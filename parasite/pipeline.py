@@ -96,15 +96,20 @@ def _check_fast_size(graph: CopperGraph, routes_path: str) -> None:
     from geometry.errors import RoutesError
     from geometry.limits import MAX_PIECES_FAST
     from parasite.extract.memory import check_fast_fits
-    from parasite.extract.operator import BOARD_NEAR_SCALE, BOARD_SECTION_RATIO, count_near_pairs
+    from parasite.extract.operator import (
+        BOARD_FAR_FIELD,
+        BOARD_NEAR_SCALE,
+        BOARD_SECTION_RATIO,
+        count_near_pairs,
+    )
 
     n = len(graph.segments)
     if n > MAX_PIECES_FAST:
         raise RoutesError(f"the copper makes {n} pieces; at most {MAX_PIECES_FAST} are accepted "
                           f"with the inductance operator (see 'Limits' in docs/routes-file.md)",
                           file=routes_path)
-    check_fast_fits(n, count_near_pairs(graph.arrays, BOARD_SECTION_RATIO, BOARD_NEAR_SCALE)
-                    if n else 0,
+    check_fast_fits(n, count_near_pairs(graph.arrays, BOARD_SECTION_RATIO, BOARD_NEAR_SCALE,
+                                         BOARD_FAR_FIELD) if n else 0,
                     routes_path)
 
 
@@ -175,7 +180,7 @@ class FastExtraction:
     """The extraction of the fast path: the inductance as an operator, no N x N array."""
 
     inputs: Inputs
-    op: FastInductance  # H, near field exact and sparse, far field by multipoles
+    op: FastInductance  # H, near field exact and sparse, far field fast
     R: np.ndarray  # (N,) ohm, at ``frequency`` (None: DC)
     frequency: float | None  # Hz
 
@@ -192,6 +197,7 @@ def extract_fast(
     from parasite.extract import resistances
     from parasite.extract.operator import (
         BOARD_EPS,
+        BOARD_FAR_FIELD,
         BOARD_NEAR_SCALE,
         BOARD_SECTION_RATIO,
         BOARD_WIDTH_POINTS,
@@ -203,7 +209,8 @@ def extract_fast(
         raise ExtractionError("no copper: the inductance operator needs segments",
                               file=inputs.routes_path)
     op = FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
-                        eps=BOARD_EPS, width_points=BOARD_WIDTH_POINTS, progress=progress)
+                        eps=BOARD_EPS, width_points=BOARD_WIDTH_POINTS,
+                        far_field=BOARD_FAR_FIELD, progress=progress)
     R = resistances(arrays, inputs.routes.copper, frequency)
     check_finite(inputs, op.diagonal(), R)
     return FastExtraction(inputs, op, R, frequency)

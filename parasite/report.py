@@ -221,7 +221,8 @@ def inductance_text(report: dict[str, Any]) -> list[str]:
     if not ind:
         return []
     out = ["", f"Inductance: fast operator (exact near field, {ind['near_pairs']:,} near pairs; "
-           f"far field by multipoles, eps {ind['far_field_eps']:g}); loops by GMRES to a "
+           f"far field: {ind['far_field']}, multipole eps {ind['far_field_eps']:g}); "
+           f"loops by GMRES to a "
            f"relative residual of {ind['gmres_rtol']:g} (iterations per loop in the JSON report)"]
     out += ["Left out on the fast path:"]
     out += [f"  {e['what']}: {e['why']}" for e in ind["left_out"]]

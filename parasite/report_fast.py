@@ -129,9 +129,7 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
             "near_radius": "near_scale max(3.5 l, l + section_ratio h) per segment",
             "section_ratio": getattr(op, "section_ratio", None),
             "near_scale": getattr(op, "near_scale", None),
-            "far_field_points": ("4 per segment: 2 along, split across the width"
-                                 if getattr(op, "width_points", False)
-                                 else "2 per segment, on the centre line"),
+            "far_field": far_field_entry(op),
             "far_field_eps": op.eps,
             "gmres_rtol": GMRES_RTOL,
             "left_out": [{"what": w, "why": y} for w, y in LEFT_OUT],
@@ -142,3 +140,15 @@ def analyse_fast(extraction: FastExtraction, *, min_coupling: float | None = Non
         add_loop_sections(report, loop_sections(
             graph, results, None, coupling=loop_coupling_matrix_operator(results, op)))
     return report
+
+
+def far_field_entry(op: Any) -> str:
+    """How the operator's far field was summed (the JSON report's words)."""
+    points = ("4 points per segment (2 along, split across the width)"
+              if getattr(op, "width_points", False) else "2 points per segment, on the centre line")
+    grid = getattr(op, "grid", None)
+    if grid is None:
+        return f"multipole sums over {points}"
+    return (f"horizontal copper on layer grids by FFT (spacing {grid.h * 1e3:.4g} mm, "
+            f"{grid.nz} planes, 4 x 4 moment-matched nodes per piece); vertical copper by "
+            f"multipole sums over {points}")

@@ -33,6 +33,7 @@ from parasite.extract import kernels
 from parasite.extract.images import IMAGE_SIGN
 from parasite.extract.matrix import near_values
 from parasite.extract.pairs import _Conductors
+from parasite.extract.plane_grid import PlaneGrid, grid_entries
 
 BLOCK_ROWS = 2048
 """Rows (segments) per block of the near field: bounds each block's candidate list."""
@@ -167,9 +168,10 @@ class NearBlock:
     its near pairs, their exact entries and far-field values."""
 
     def __init__(self, c: _Conductors, img: np.ndarray, mz: np.ndarray,
-                 pairs: NearPairs, ts: np.ndarray) -> None:
+                 pairs: NearPairs, ts: np.ndarray, grid: PlaneGrid | None = None) -> None:
         self.c, self.img, self.mz, self.pairs = c, img, mz, pairs
         self.ts = ts  # the far field's points across the width (operator.FastInductance)
+        self.grid = grid  # the far field of horizontal copper on layer grids, or None
 
     def __call__(self, rows: tuple[int, int]) -> NearPiece:
         r0, r1 = rows
@@ -177,11 +179,25 @@ class NearBlock:
         with _compiled_threads():
             ii, jj = self.pairs.upper(r0, r1)
             exact = entries(c, self.img, self.mz, ii, jj)
-            far = kernels.point_entries(ii, jj, self.img, IMAGE_SIGN, c.mid, c.d,
-                                        kernels.width_offsets(c), self.ts)
+            far = far_values(c, self.img, self.ts, self.grid, ii, jj)
         indptr = np.zeros(r1 - r0 + 1, dtype=np.int64)
         np.cumsum(np.bincount(ii - r0, minlength=r1 - r0), out=indptr[1:])
         return NearPiece(r0, r1, indptr, jj.astype(np.int32), exact, exact - far)
+
+
+def far_values(c: _Conductors, img: np.ndarray, ts: np.ndarray, grid: PlaneGrid | None,
+               ii: np.ndarray, jj: np.ndarray) -> np.ndarray:
+    """What the operator's far field gives for entries (ii[k], jj[k]) (H): the grid's
+    value (:func:`parasite.extract.plane_grid.grid_entries`) for pairs of horizontal
+    segments when there is a grid, else the points'
+    (:func:`parasite.extract.kernels.point_entries`)."""
+    far = kernels.point_entries(ii, jj, img, IMAGE_SIGN, c.mid, c.d, kernels.width_offsets(c),
+                                ts)
+    if grid is not None:
+        both = grid.horizontal[ii] & grid.horizontal[jj]
+        if both.any():
+            far[both] = grid_entries(grid, ii[both], jj[both], img, c.d, IMAGE_SIGN)
+    return far
 
 
 def row_blocks(n: int, block_rows: int = BLOCK_ROWS) -> list[tuple[int, int]]:

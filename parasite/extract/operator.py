@@ -52,8 +52,10 @@ from parasite.extract.near_field import (
     NearPairs,
     assemble,
     entries,
+    far_values,
     row_blocks,
 )
+from parasite.extract.plane_grid import NEAR_SPACINGS, grid_layout, grid_product, plane_grid
 from parasite.schedule import run_map, runs_here
 
 BOARD_SECTION_RATIO = 3.0
@@ -61,33 +63,38 @@ BOARD_SECTION_RATIO = 3.0
 as wide as it is long, so the default 10 makes nearly every pair of a meshed board near;
 at 3 the loop inductances of the benchmark's meshed power stage stay within 1e-4 of the
 dense path (benchmarks/bench_board_scale.py, tests/loops/test_loops_operator.py)."""
-BOARD_NEAR_SCALE = 0.7
-"""``near_scale`` of the same path: the near radii times 0.7, so that two equal cells
-are near below 4.9 lengths apart (the dense path's far rule starts at 3.5); pairs
-beyond take the far field's points on the centre lines (``BOARD_WIDTH_POINTS``). At
-0.6 (4,674 segments, 0.87 M near pairs within the sum of the radii) the loop
-inductances stayed within 3.6e-4 of the dense path, but a probe's pick-up, first order
-in the loop's currents, was 2.8e-3 off on fixtures/routes/pour_plane; at 0.7 8.4e-4
-(0.8: 6.2e-4), for about 1.36 times the near pairs (benchmarks/RESULTS.md)."""
-BOARD_WIDTH_POINTS = False
-"""Whether the same path splits the far field's points across the width (see
-``ACROSS``). Measured on the benchmark board at 4,674 segments against the dense matrix:
-with the split a product is within 1.7e-5 at near radii x0.5 (0.62 M near pairs; 1.3e-5
-at x0.7, 3.1e-5 at x0.4) and the loop inductances within 1.1e-5, against 4.0e-4 and
-3.6e-4 on the centre lines at x0.7; but every multipole sum has twice the points: the
-report of the 22,013-segment board took 220 s instead of 98 s, and the 98,547-cell
-board was still in its third loop after 12.6 minutes (501 s in all on the centre
-lines). The board path keeps the centre lines so that such a board reports within 10
-minutes; ``FastInductance`` splits by default (tests/extract/test_operator.py checks
-both at the board settings)."""
+BOARD_NEAR_SCALE = 0.4
+"""``near_scale`` of the same path: the near radii times 0.4 (two equal square cells are
+near below 3.2 lengths apart), and at least the grid's near distance
+(:data:`parasite.extract.plane_grid.NEAR_SPACINGS`, 6 spacings, 3 cells of the
+benchmark's pours). Measured on the benchmark board against the dense matrix with the
+grid's far field: a product within 1.06e-5 at 4,674 segments (0.98 M near pairs;
+7.8e-6 at x0.5 with 1.33 M), 1.24e-5 at 2,101. Before the grid, the far field's points
+on the centre lines needed x0.7 for 4.0e-4 (docs/scale.md)."""
+BOARD_FAR_FIELD = "grid"
+"""The far field of the same path (:data:`FAR_FIELDS`): horizontal copper on layer grids
+by FFT. Measured at 4,674 segments: a product of 4 real columns in 0.012 s against
+0.57 s by the multipole sums with the points split across the width (1.3e-5), 0.17 s
+on the centre lines (4.0e-4); the three loops' GMRES solves in 1.0 s against 25 s.
+A board the grid does not fit (inclined copper) takes the multipole sums with the split
+points."""
+BOARD_WIDTH_POINTS = True
+"""Whether the multipole sums of the same path split the far field's points across the
+width (``ACROSS``; vertical copper, and boards the grid does not fit). With the split a
+product is within 1.7e-5 of the dense matrix at near radii x0.5 (4,674 segments),
+against 4.0e-4 on the centre lines at x0.7, for twice the points per sum."""
 BOARD_EPS = 1e-3
 """``eps`` of the multipole sums on the same path. Measured on the benchmark board (4,674
 segments): one product within 1.5e-5 of the sums at 1e-10, the loop inductances within
-9e-6 of those at 1e-7, the loop solves 4 times quicker than at 1e-7 (2 at 1e-4):
-well inside the near field's own 3.6e-4 (``BOARD_NEAR_SCALE``) and the 1e-4 asked of a
-product (tests/extract/test_operator.py checks a product at this eps against the dense
+9e-6 of those at 1e-7, the loop solves 4 times quicker than at 1e-7 (2 at 1e-4)
+(tests/extract/test_operator.py checks a product at this eps against the dense
 matrix). With the far field's points split across the width, 3e-3 gives the same
 product error (1.58e-5) 1.25 times quicker."""
+FAR_FIELDS = ("multipole", "grid")
+"""The far fields of :class:`FastInductance`: ``"multipole"`` (every conductor's points,
+fmm3dpy) or ``"grid"`` (horizontal copper on layer grids by FFT,
+:mod:`parasite.extract.plane_grid`; vertical copper by multipoles; a board the grid
+does not fit, with inclined copper or too many heights, falls back to multipoles)."""
 GL2 = 0.5 / np.sqrt(3.0)
 """The 2-point Gauss-Legendre nodes on [-1/2, 1/2] are -GL2, +GL2 (weights 1/2)."""
 ACROSS = {True: (-1.0, 1.0), False: (0.0,)}
@@ -148,7 +155,11 @@ class FastInductance:
     def __init__(self, arrays: SegmentArrays, *, section_ratio: float = 10.0,
                  eps: float = 1e-7, progress: Callable[[int, int], None] | None = None,
                  near_scale: float = 1.0, block_rows: int = BLOCK_ROWS,
-                 scheduler: str | Any | None = None, width_points: bool = True) -> None:
+                 scheduler: str | Any | None = None, width_points: bool = True,
+                 far_field: str = "multipole") -> None:
+        if far_field not in FAR_FIELDS:
+            raise ExtractionError(f"unknown far field {far_field!r}; one of "
+                                  f"{', '.join(FAR_FIELDS)}", key="far_field")
         c, img, mz, diag = tables(arrays)
         n = len(arrays)
         self.shape = (n, n)
@@ -157,6 +168,11 @@ class FastInductance:
         self._c, self._img, self._mz, self._diag = c, img, mz, diag
         radius = near_scale * np.maximum(3.5 * c.length[:n],
                                          c.length[:n] + section_ratio * c.size[:n])
+        self.grid = plane_grid(c, n) if far_field == "grid" else None
+        self.far_field = "grid" if self.grid is not None else "multipole"
+        if self.grid is not None:  # pairs closer than the grid resolves are stored exactly
+            floor = 0.5 * self.grid.near_distance
+            radius = np.where(self.grid.horizontal[:n], np.maximum(radius, floor), radius)
         self.near_radius = radius
         self.near_scale = near_scale
         # the near field block by block of rows (parasite.extract.near_field), in this
@@ -164,7 +180,7 @@ class FastInductance:
         self.width_points = width_points
         ts = np.array(ACROSS[width_points])
         self._slots = [(sk, tk) for sk in (-1.0, 1.0) for tk in ts]
-        task = NearBlock(c, img, mz, NearPairs(c.mid[:n, :2], radius), ts)
+        task = NearBlock(c, img, mz, NearPairs(c.mid[:n, :2], radius), ts, self.grid)
         blocks = row_blocks(n, block_rows)
         if progress is not None and runs_here(scheduler):
             pieces = []
@@ -178,8 +194,7 @@ class FastInductance:
         del task
         diag_idx = np.arange(n, dtype=np.int64)
         off = kernels.width_offsets(c)
-        f_diag = kernels.point_entries(diag_idx, diag_idx, img, IMAGE_SIGN, c.mid, c.d, off,
-                                       ts)
+        f_diag = far_values(c, img, ts, self.grid, diag_idx, diag_idx)
         self.near, self._corr = assemble(pieces, n, diag, f_diag)
         # the far field's points: segments, then their images; len(_slots) per conductor
         has = img >= 0
@@ -217,7 +232,10 @@ class FastInductance:
         cols = x.reshape(x.shape[0], -1)
         parts = np.hstack([cols.real, cols.imag]) if np.iscomplexobj(cols) else cols
         parts = np.asarray(parts, dtype=float)
-        y = self._far(parts) + self._corr @ parts
+        y = self._corr @ parts
+        if self.grid is not None:
+            y += grid_product(self.grid, parts, self._img, self._c.d, IMAGE_SIGN)
+        y += self._far(parts)
         if np.iscomplexobj(cols):
             y = y[:, :cols.shape[1]] + 1j * y[:, cols.shape[1]:]
         return y.reshape(x.shape)
@@ -241,7 +259,7 @@ class FastInductance:
         direct = np.zeros((m, n))
         a_term = np.zeros((m, n))  # M(i, j') x_j: images' charges at the segments' points
         b_img = np.zeros((m, k - n))  # M(i', j) x_j: segments' charges at the images' points
-        for comp in range(3):
+        for comp in ((2,) if self.grid is not None else range(3)):  # x, y: on the grid
             sel = np.flatnonzero(self._d[:, comp] != 0.0)  # conductors (segments, images)
             if sel.size == 0:
                 continue
@@ -275,24 +293,34 @@ class FastInductance:
 
 
 def near_radius(arrays: SegmentArrays, section_ratio: float = 10.0,
-                near_scale: float = 1.0) -> np.ndarray:
+                near_scale: float = 1.0, far_field: str = "multipole") -> np.ndarray:
     """The near radius of every segment (m): ``near_scale max(3.5 l, l + section_ratio h)``
     (module docstring), from the segment arrays alone (h: the larger of width and
-    thickness, the section size of a bar; 2 radius for a round conductor)."""
+    thickness, the section size of a bar; 2 radius for a round conductor); with the
+    grid's far field, at least half its near distance on horizontal copper (as
+    :class:`FastInductance`)."""
     length = np.linalg.norm(arrays.end - arrays.start, axis=1)
     size = np.maximum(arrays.width, arrays.thickness)
-    return near_scale * np.maximum(3.5 * length, length + section_ratio * size)
+    radius = near_scale * np.maximum(3.5 * length, length + section_ratio * size)
+    if far_field == "grid":
+        c = tables(arrays)[0]
+        layout = grid_layout(c.u, c.mid, c.length, c.width, len(arrays))
+        if layout is not None:
+            floor = 0.5 * NEAR_SPACINGS * layout.h
+            radius = np.where(layout.horizontal[:len(arrays)], np.maximum(radius, floor),
+                              radius)
+    return radius
 
 
 def count_near_pairs(arrays: SegmentArrays, section_ratio: float = 10.0,
-                     near_scale: float = 1.0) -> int:
+                     near_scale: float = 1.0, far_field: str = "multipole") -> int:
     """How many pairs ``i < j`` :class:`FastInductance` stores as exact near entries
     (the same search, counted without evaluating them)."""
     n = len(arrays)
     if n == 0:
         return 0
     xy = 0.5 * (arrays.start + arrays.end)[:, :2]
-    return NearPairs(xy, near_radius(arrays, section_ratio, near_scale)).count()
+    return NearPairs(xy, near_radius(arrays, section_ratio, near_scale, far_field)).count()
 
 
 class SubOperator:

@@ -164,25 +164,33 @@ def test_block_port_solve_equals_direct_solve() -> None:
         assert np.max(np.abs(I[:, j] - ref)) <= 1e-6 * np.max(np.abs(ref))
 
 
-@pytest.mark.parametrize("width_points, bound", [(True, 1e-4), (False, 3e-3)])
-def test_board_settings_product_on_a_meshed_stage(tmp_path, width_points: bool,
-                                                  bound: float) -> None:
+@pytest.mark.parametrize("far_field, width_points, bound", [
+    ("grid", True, 1e-4), ("multipole", True, 1e-4), ("multipole", False, 3e-3)])
+def test_board_settings_product_on_a_meshed_stage(tmp_path, far_field: str,
+                                                  width_points: bool, bound: float) -> None:
     """The operator at the board path's settings (section ratio, near radii, eps of
     parasite.pipeline.extract_fast) on the invented meshed power stage of
     benchmarks/bench_board_scale.py (1,450 segments, pour cells as wide as long): a
-    product within 1e-4 of the dense matrix's with the far field's points split across
-    the width, and without them (the centre lines only) the pairs just beyond the near
-    radii lose their section average (measured 1.3e-3 here at near radii x0.5): the split
-    is what brings it under 1e-4."""
+    product within 1e-4 of the dense matrix's with the layer grids' far field (the
+    board path's), and with the multipole sums over points split across the width; on
+    the centre lines only the pairs just beyond the near radii lose their section
+    average (measured 1.3e-3 at near radii x0.5): the split is what brings the
+    multipole sums under 1e-4."""
     from benchmarks.bench_board_scale import cell_for, write_board
-    from parasite.extract.operator import BOARD_NEAR_SCALE, BOARD_SECTION_RATIO
+    from parasite.extract.operator import (
+        BOARD_FAR_FIELD,
+        BOARD_NEAR_SCALE,
+        BOARD_SECTION_RATIO,
+    )
     from parasite.pipeline import load_inputs
 
+    assert BOARD_FAR_FIELD == "grid"
     cir, routes = write_board(tmp_path, cell_for(1500))
     arrays = load_inputs(cir, routes, "fast").graph.arrays
     dense = inductance_matrix(arrays)
     fast = FastInductance(arrays, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
-                          eps=BOARD_EPS, width_points=width_points)
+                          eps=BOARD_EPS, width_points=width_points, far_field=far_field)
+    assert fast.far_field == far_field
     x = np.random.default_rng(3).standard_normal(len(arrays))
     err = np.linalg.norm(fast.matvec(x) - dense @ x) / np.linalg.norm(dense @ x)
     assert err < bound
