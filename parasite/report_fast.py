@@ -149,6 +149,12 @@ def far_field_entry(op: Any) -> str:
     grid = getattr(op, "grid", None)
     if grid is None:
         return f"multipole sums over {points}"
-    return (f"horizontal copper on layer grids by FFT (spacing {grid.h * 1e3:.4g} mm, "
+    n = op.shape[0]
+    inclined = int(grid.inclined[:n].sum())
+    text = (f"horizontal copper on layer grids by FFT (spacing {grid.h * 1e3:.4g} mm, "
             f"{grid.nz} planes, 4 x 4 moment-matched nodes per piece); vertical copper by "
             f"multipole sums over {points}")
+    if inclined:
+        text += (f"; {inclined} inclined segments off the grid, their pairs with every "
+                 f"segment exact")
+    return text

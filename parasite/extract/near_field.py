@@ -187,14 +187,17 @@ class NearBlock:
 
 def far_values(c: _Conductors, img: np.ndarray, ts: np.ndarray, grid: PlaneGrid | None,
                ii: np.ndarray, jj: np.ndarray) -> np.ndarray:
-    """What the operator's far field gives for entries (ii[k], jj[k]) (H): the grid's
-    value (:func:`parasite.extract.plane_grid.grid_entries`) for pairs of horizontal
-    segments when there is a grid, else the points'
+    """What the operator's far field gives for entries (ii[k], jj[k]) (H): with a grid,
+    the grid's value (:func:`parasite.extract.plane_grid.grid_entries`) for pairs of
+    segments on it and 0 for a segment on it with one off it (neither sum holds that
+    pair); else, and for pairs off the grid, the points'
     (:func:`parasite.extract.kernels.point_entries`)."""
     far = kernels.point_entries(ii, jj, img, IMAGE_SIGN, c.mid, c.d, kernels.width_offsets(c),
                                 ts)
     if grid is not None:
-        both = grid.horizontal[ii] & grid.horizontal[jj]
+        on_i, on_j = grid.horizontal[ii], grid.horizontal[jj]
+        both = on_i & on_j
+        far[on_i != on_j] = 0.0
         if both.any():
             far[both] = grid_entries(grid, ii[both], jj[both], img, c.d, IMAGE_SIGN)
     return far

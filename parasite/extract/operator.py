@@ -55,7 +55,7 @@ from parasite.extract.near_field import (
     far_values,
     row_blocks,
 )
-from parasite.extract.plane_grid import NEAR_SPACINGS, grid_layout, grid_product, plane_grid
+from parasite.extract.plane_grid import grid_layout, grid_product, grid_radii, plane_grid
 from parasite.schedule import run_map, runs_here
 
 BOARD_SECTION_RATIO = 3.0
@@ -171,8 +171,8 @@ class FastInductance:
         self.grid = plane_grid(c, n) if far_field == "grid" else None
         self.far_field = "grid" if self.grid is not None else "multipole"
         if self.grid is not None:  # pairs closer than the grid resolves are stored exactly
-            floor = 0.5 * self.grid.near_distance
-            radius = np.where(self.grid.horizontal[:n], np.maximum(radius, floor), radius)
+            radius = grid_radii(radius, c.mid[:n, :2], self.grid.horizontal,
+                                self.grid.inclined, self.grid.h)
         self.near_radius = radius
         self.near_scale = near_scale
         # the near field block by block of rows (parasite.extract.near_field), in this
@@ -259,8 +259,11 @@ class FastInductance:
         direct = np.zeros((m, n))
         a_term = np.zeros((m, n))  # M(i, j') x_j: images' charges at the segments' points
         b_img = np.zeros((m, k - n))  # M(i', j) x_j: segments' charges at the images' points
-        for comp in ((2,) if self.grid is not None else range(3)):  # x, y: on the grid
-            sel = np.flatnonzero(self._d[:, comp] != 0.0)  # conductors (segments, images)
+        on_grid = (self.grid.horizontal[self._src] if self.grid is not None
+                   else np.zeros(k, dtype=bool))
+        for comp in range(3):
+            # conductors (segments, images) with that component, the grid's left out
+            sel = np.flatnonzero((self._d[:, comp] != 0.0) & ~on_grid)
             if sel.size == 0:
                 continue
             seg, img = sel[sel < n], sel[sel >= n]
@@ -306,9 +309,8 @@ def near_radius(arrays: SegmentArrays, section_ratio: float = 10.0,
         c = tables(arrays)[0]
         layout = grid_layout(c.u, c.mid, c.length, c.width, len(arrays))
         if layout is not None:
-            floor = 0.5 * NEAR_SPACINGS * layout.h
-            radius = np.where(layout.horizontal[:len(arrays)], np.maximum(radius, floor),
-                              radius)
+            radius = grid_radii(radius, c.mid[:len(arrays), :2], layout.horizontal,
+                                layout.inclined, layout.h)
     return radius
 
 

@@ -27,9 +27,10 @@ plane carries a square grid of spacing ``h`` (m), the same in x and y for all pl
 
 The error of a far pair is that of the moments left out (fourth order in the stencil
 over the distance); measured against the dense matrix in docs/scale.md and checked in
-tests/extract/test_plane_grid.py. Vertical copper (vias) has no x or y component and
-is left to the multipole sums; a board with inclined copper is not put on the grid
-(:func:`plane_grid` returns None). SI units: m, H (``1/r`` sums in 1/m).
+tests/extract/test_plane_grid.py. Copper off the grid is left to the multipole sums:
+vertical copper (vias) couples to nothing on it (no x or y component), and inclined
+copper (probe leads, wires) has its pairs with every segment stored exactly
+(:data:`MAX_INCLINED_PAIRS`). SI units: m, H (``1/r`` sums in 1/m).
 """
 
 from __future__ import annotations
@@ -50,6 +51,10 @@ NEAR_SPACINGS = 6.0
 """Pairs whose horizontal midpoint distance is below this many grid spacings are always
 stored exactly (the operator's near radii are at least half of it on the grid's copper):
 beyond it the stencils of two pieces are at least 4 spacings apart."""
+MAX_INCLINED_PAIRS = 4_000_000
+"""Inclined copper (probe leads, wires; neither horizontal nor vertical) is not on the
+grid: its pairs with every segment are stored exactly, so the grid applies while
+``inclined segments x segments`` is at most this (else the multipole sums)."""
 MAX_PLANES = 16
 """More distinct heights of horizontal copper than this: no grid (multipole sums)."""
 MAX_BYTES = 256 * 2**20
@@ -100,7 +105,8 @@ class PlaneGrid:
     nx: int
     ny: int
     planes: np.ndarray  # (nz,) m
-    horizontal: np.ndarray  # (K,) bool
+    horizontal: np.ndarray  # (K,) bool: on the grid
+    inclined: np.ndarray  # (K,) bool: every pair with a segment stored exactly
     proj: sp.csr_matrix
     table: np.ndarray  # (n_dz, nx, ny)
     pair_dz: np.ndarray  # (nz, nz) int64
@@ -152,6 +158,7 @@ class Layout:
     """Where the grids go: the horizontal conductors, their planes and the spacing."""
 
     horizontal: np.ndarray  # (K,) bool
+    inclined: np.ndarray  # (K,) bool: neither horizontal nor vertical
     plane_of: np.ndarray  # (count of horizontal,) plane index of each
     planes: np.ndarray  # (nz,) m
     h: float  # m
@@ -163,12 +170,15 @@ def grid_layout(u: np.ndarray, mid: np.ndarray, length: np.ndarray, width: np.nd
                 n_segments: int) -> Layout | None:
     """The layout of the grids of conductors (directions ``u``, midpoints ``mid``,
     lengths and widths, m; the first ``n_segments`` are segments, the rest their
-    images), or None when the grid does not apply: no horizontal copper, inclined
-    copper (neither horizontal nor vertical), or more than :data:`MAX_PLANES` heights.
+    images), or None when the grid does not apply: no horizontal segment, more
+    inclined segments than :data:`MAX_INCLINED_PAIRS` allows, or more than
+    :data:`MAX_PLANES` heights.
     The spacing is half the median of the horizontal segments' larger side (length or
     width), widened until the kernels' spectra fit in :data:`MAX_BYTES`."""
     horizontal, vertical = classify(u)
-    if not horizontal[:n_segments].any() or not np.all(horizontal | vertical):
+    inclined = ~(horizontal | vertical)
+    if (not horizontal[:n_segments].any()
+            or int(inclined[:n_segments].sum()) * n_segments > MAX_INCLINED_PAIRS):
         return None
     hz = np.flatnonzero(horizontal)
     z = mid[hz, 2]
@@ -185,7 +195,20 @@ def grid_layout(u: np.ndarray, mid: np.ndarray, length: np.ndarray, width: np.nd
     n_dz = np.unique(np.round(dz / _Z_ROUND)).size
     while n_dz * spectrum_bytes(span, h) > MAX_BYTES:
         h *= 1.25
-    return Layout(horizontal, plane_of.astype(np.int64), planes, h, lo, span)
+    return Layout(horizontal, inclined, plane_of.astype(np.int64), planes, h, lo, span)
+
+
+def grid_radii(radius: np.ndarray, xy: np.ndarray, horizontal: np.ndarray,
+               inclined: np.ndarray, h: float) -> np.ndarray:
+    """The near radii (m) of ``radius.size`` segments (midpoints ``xy``) with a grid of
+    spacing ``h``: at least half of :data:`NEAR_SPACINGS` spacings on the grid's
+    copper, and past the whole board for inclined copper (every pair stored exactly)."""
+    n = radius.size
+    out = np.where(horizontal[:n], np.maximum(radius, 0.5 * NEAR_SPACINGS * h), radius)
+    if inclined[:n].any():
+        reach = float(np.ptp(xy, axis=0).max()) + float(radius.max())
+        out = np.where(inclined[:n], 2.0 * reach + 1.0, out)
+    return out
 
 
 def spectrum_bytes(span: np.ndarray, h: float) -> float:
@@ -278,7 +301,8 @@ def plane_grid(c: object, n_segments: int) -> PlaneGrid | None:
         full[:nx, fy - ny + 1:] = t[:, :0:-1]
         full[fx - nx + 1:, fy - ny + 1:] = t[:0:-1, :0:-1]
         kernel_hat[q] = sfft.rfftn(full, workers=-1)
-    return PlaneGrid(h=h, origin=x0, nx=nx, ny=ny, planes=planes, horizontal=horizontal, proj=proj,
+    return PlaneGrid(h=h, origin=x0, nx=nx, ny=ny, planes=planes, horizontal=horizontal,
+                     inclined=layout.inclined, proj=proj,
                      table=table, pair_dz=pair_dz, shape_fft=(fx, fy), kernel_hat=kernel_hat)
 
 
