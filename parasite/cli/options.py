@@ -130,7 +130,7 @@ inductance_opt = click.option(
     "--inductance", type=click.Choice(["auto", "dense", "fast"]), default="auto",
     show_default=True,
     help="How the partial inductance is held: dense (the N x N matrix, the reference), fast "
-         "(exact near field + multipole far field, memory linear in N; loops by iterative "
+         "(exact near field + fast far field, memory linear in N; loops by iterative "
          "solves; augment writes the copper as a reduced model only) or auto (dense when the "
          "board has at most 10,000 pieces and the dense estimate fits in memory, else "
          "fast). See docs/scale.md.")

@@ -13,7 +13,8 @@ Public API::
     skin_depth(resistivity, frequency, mu_r=1.0) -> m
 
 For large boards (docs/scale.md): :mod:`parasite.extract.operator` (the inductance as
-an operator: dense reference, near field + fast multipole far field),
+an operator: dense reference, near field + fast far field: layer grids by FFT,
+multipoles),
 :mod:`parasite.extract.port_krylov` (iterative port solve),
 :mod:`parasite.extract.sweep` (frequency sweep through :mod:`parasite.schedule`).
 

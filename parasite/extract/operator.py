@@ -21,7 +21,12 @@ Two implementations of one interface (:class:`InductanceOperator`):
   sum's own value for them is subtracted: ``L x = S x + F x - S_F x``. ``S`` is built
   block by block of rows (:mod:`parasite.extract.near_field`; the blocks run through
   :func:`parasite.schedule.run_map`, in process or on a Dask cluster, same bytes) and
-  held as a full symmetric CSR matrix; ``S - S_F`` shares its index arrays.
+  held as a full symmetric CSR matrix; ``S - S_F`` shares its index arrays. With
+  ``far_field="grid"`` (the board path's) the horizontal copper's far field is summed
+  on layer grids by FFT instead (:mod:`parasite.extract.plane_grid`, its section's
+  moments to third order; ``S_F`` the grid's own values), the near radii are at least
+  the grid's near distance, and the multipole sums keep the rest (vias; inclined
+  copper, whose pairs with every segment are then stored exactly).
 
 The near radius of a segment of length l and section size h is
 ``max(3.5 l, l + section_ratio h)``; beyond the sum of two radii a pair is far. Without
@@ -68,8 +73,8 @@ BOARD_NEAR_SCALE = 0.4
 near below 3.2 lengths apart), and at least the grid's near distance
 (:data:`parasite.extract.plane_grid.NEAR_SPACINGS`, 6 spacings, 3 cells of the
 benchmark's pours). Measured on the benchmark board against the dense matrix with the
-grid's far field: a product within 1.06e-5 at 4,674 segments (0.98 M near pairs;
-7.8e-6 at x0.5 with 1.33 M), 1.24e-5 at 2,101. Before the grid, the far field's points
+grid's far field: a product within 1.06e-5 at 4,674 segments (489 k near pairs;
+7.8e-6 at x0.5 with 663 k), 1.24e-5 at 2,101. Before the grid, the far field's points
 on the centre lines needed x0.7 for 4.0e-4 (docs/scale.md)."""
 BOARD_FAR_FIELD = "grid"
 """The far field of the same path (:data:`FAR_FIELDS`): horizontal copper on layer grids
