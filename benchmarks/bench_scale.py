@@ -1,7 +1,9 @@
 """Benchmark of the scale foundations: the fast inductance operator against the dense
 matrix (build time, matrix-vector product, memory of what is stored, accuracy), and a
 10-point frequency sweep of a meshed-pour port in process, on a local Dask cluster of
-1 worker and of 2 workers.
+1 worker and of 2 workers: the dense matrix, the operator at its defaults (multipole
+far field) and at the board path's settings (far field on the layer grids). The
+operator's table also has the layer grids at the operator's default near radii.
 
 Run: ``.venv/bin/python benchmarks/bench_scale.py [N ...] [--sweep-cell MM]``. Boards are
 the invented ones of ``benchmarks/bench_extract.py``; the pour scene is the invented
@@ -42,9 +44,17 @@ def operator_case(n: int) -> str:
     t_mvf = time.perf_counter() - t0
     err = np.linalg.norm(yf - yd) / np.linalg.norm(yd)
     stored = fast.near.data.nbytes + fast.near.indices.nbytes + fast._corr.data.nbytes
+    t0 = time.perf_counter()
+    grid = FastInductance(arrays, far_field="grid")
+    t_grid = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    yg = grid.matvec(x)
+    t_mvg = time.perf_counter() - t0
+    err_g = np.linalg.norm(yg - yd) / np.linalg.norm(yd)
     return (f"| {n:,} | {t_dense:.2f} | {t_fast:.2f} | {t_mvd * 1e3:.1f} | {t_mvf * 1e3:.0f} | "
             f"{dense.L.nbytes / 2**20:.0f} | {stored / 2**20:.0f} | "
-            f"{fast.pairs_near / n**2:.3f} | {err:.1e} |")
+            f"{fast.pairs_near / n**2:.3f} | {err:.1e} | {t_grid:.2f} | {t_mvg * 1e3:.1f} | "
+            f"{err_g:.1e} |")
 
 
 def sweep_case(cell: float) -> list[str]:
@@ -62,10 +72,19 @@ def sweep_case(cell: float) -> list[str]:
     L = inductance_matrix(a)
     R = resistances(a, Copper())
     freqs = list(np.geomspace(1e5, 1e8, 10))
-    from parasite.extract.operator import FastInductance
+    from parasite.extract.operator import (
+        BOARD_EPS,
+        BOARD_FAR_FIELD,
+        BOARD_NEAR_SCALE,
+        BOARD_SECTION_RATIO,
+        FastInductance,
+    )
 
+    board = FastInductance(a, section_ratio=BOARD_SECTION_RATIO, near_scale=BOARD_NEAR_SCALE,
+                           eps=BOARD_EPS, far_field=BOARD_FAR_FIELD)
     rows = []
-    for how, held in (("dense matrix", L), ("operator", FastInductance(a))):
+    for how, held in (("dense matrix", L), ("operator", FastInductance(a)),
+                      ("operator, board settings (layer grids)", board)):
         args = (a.node_from, a.node_to, sc.n_nodes, held, R, freqs, sc.plus, sc.minus)
         t0 = time.perf_counter()
         ref = port_sweep(*args)
@@ -90,8 +109,9 @@ def main() -> None:
     ap.add_argument("--no-sweep", action="store_true")
     args = ap.parse_args()
     print("| N | dense build (s) | fast build (s) | dense matvec (ms) | fast matvec (ms) "
-          "| dense (MiB) | fast stored (MiB) | near share | matvec rel. error |")
-    print("|---|---|---|---|---|---|---|---|---|")
+          "| dense (MiB) | fast stored (MiB) | near share | matvec rel. error "
+          "| grid build (s) | grid matvec (ms) | grid rel. error |")
+    print("|---|---|---|---|---|---|---|---|---|---|---|---|")
     for n in args.sizes:
         print(operator_case(n), flush=True)
     if not args.no_sweep:

@@ -48,7 +48,7 @@ def port_sweep(node_from: np.ndarray, node_to: np.ndarray, n_nodes: int,
     """:func:`solve_port` at every frequency (Hz), in the order given; in process on a
     thread per core (numpy's dense solves release the interpreter lock). ``L`` an
     operator (anything but an array): :func:`solve_port_operator` at each point, in
-    process one point after the other (its multipole sums use every core)."""
+    process one point after the other (its far-field sums use every core)."""
     if not isinstance(L, np.ndarray):
         op_task = partial(_point_operator, node_from=np.asarray(node_from),
                           node_to=np.asarray(node_to), n_nodes=int(n_nodes), op=L,
