@@ -41,19 +41,27 @@ def test_fast_matvec_against_dense(n: int, plane: bool, eps: float) -> None:
     arrays = generated_board(n, seed=7, plane=plane)
     dense = DenseInductance.from_arrays(arrays)
     fast = FastInductance(arrays, eps=eps)
-    rng = np.random.default_rng(n)
-    x = rng.standard_normal((n, 2))
-    y, yd = fast.matvec(x), dense.matvec(x)
-    assert np.linalg.norm(y - yd) / np.linalg.norm(yd) < 1e-4
-    z = x[:, 0] + 1j * x[:, 1]
-    assert np.linalg.norm(fast.matvec(z) - dense.matvec(z)) / np.linalg.norm(dense.matvec(z)) \
-        < 1e-4
+    x, y = assert_products_match(fast, dense, n)
     lin = as_linear_operator(fast)
     assert np.allclose(lin @ x[:, 0], y[:, 0], rtol=0, atol=1e-12 * np.abs(y).max())
     np.testing.assert_allclose(fast.diagonal(), dense.diagonal(), rtol=1e-12)
     rows, cols = np.arange(0, n, 37), np.arange(3, n, 53)
     scale = np.abs(dense.block(rows, cols)).max()
     assert np.max(np.abs(fast.block(rows, cols) - dense.block(rows, cols))) < 1e-12 * scale
+
+
+def assert_products_match(fast: FastInductance, dense: DenseInductance, seed: int,
+                          bound: float = 1e-4) -> tuple[np.ndarray, np.ndarray]:
+    """Products of ``fast`` within ``bound`` relative norm of the dense ones: a block of
+    two random real vectors and their complex combination. Returns ``(x, fast x)``."""
+    n = dense.shape[0]
+    x = np.random.default_rng(seed).standard_normal((n, 2))
+    y, yd = fast.matvec(x), dense.matvec(x)
+    assert np.linalg.norm(y - yd) / np.linalg.norm(yd) < bound
+    z = x[:, 0] + 1j * x[:, 1]
+    assert np.linalg.norm(fast.matvec(z) - dense.matvec(z)) / np.linalg.norm(dense.matvec(z)) \
+        < bound
+    return x, y
 
 
 @pytest.mark.parametrize("frequency", [1e7])

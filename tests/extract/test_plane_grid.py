@@ -27,6 +27,7 @@ from parasite.extract.plane_grid import (
     grid_entries,
     plane_grid,
 )
+from tests.extract.test_operator import assert_products_match
 
 
 def _bars(start: list, end: list, width: float, thickness: float) -> SegmentArrays:
@@ -153,13 +154,7 @@ def test_grid_product_against_dense(n: int, plane: bool, near_scale: float) -> N
     fast = FastInductance(arrays, far_field="grid", near_scale=near_scale, section_ratio=3.0,
                           eps=1e-3)
     assert fast.far_field == "grid"
-    rng = np.random.default_rng(n)
-    x = rng.standard_normal((n, 2))
-    y, yd = fast.matvec(x), dense.matvec(x)
-    assert np.linalg.norm(y - yd) / np.linalg.norm(yd) < 1e-4
-    z = x[:, 0] + 1j * x[:, 1]
-    assert np.linalg.norm(fast.matvec(z) - dense.matvec(z)) / np.linalg.norm(dense.matvec(z)) \
-        < 1e-4
+    assert_products_match(fast, dense, n)
     np.testing.assert_allclose(fast.diagonal(), dense.diagonal(), rtol=1e-12)
 
 
