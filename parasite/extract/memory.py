@@ -65,11 +65,12 @@ def dense_bytes(n: int) -> float:
     return DENSE_FACTOR * 8.0 * float(n) ** 2
 
 
-FAST_BYTES_BASE = 512.0 * 2**20 + 2 * 256 * 2**20
+FAST_BYTES_BASE = 512.0 * 2**20 + 3 * 256 * 2**20
 """Bytes of a fast-path run before any board-sized array (measured about 300 MB), plus
-512 MiB for the layer grids: their kernels' spectra (at most
-:data:`parasite.extract.plane_grid.MAX_BYTES`, 256 MiB) and one batch of a product's
-spectra (``CHUNK_BYTES``, 128 MiB) with its real copies."""
+768 MiB for the layer grids: their kernels' spectra (at most
+:data:`parasite.extract.plane_grid.MAX_BYTES`, 256 MiB), one batch of a product's
+spectra (``CHUNK_BYTES``, 128 MiB) with its real copies, and the long conductors'
+columns (``MAX_LONG_BYTES``, 256 MiB)."""
 FAST_BYTES_PER_PAIR = 64.0
 """Peak bytes per exact near pair on the fast path (measured 52, rounded up)."""
 FAST_BYTES_PER_SEGMENT = 40_000.0

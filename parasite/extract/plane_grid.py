@@ -22,8 +22,8 @@ plane carries a square grid of spacing ``h`` (m), the same in x and y for all pl
 * **Precorrection.** The grid is right only for pairs a few spacings apart; for the
   pairs the operator stores exactly (its near field, and every pair of midpoints
   within :data:`NEAR_SPACINGS` spacings), the grid's own value ``P_i^T K P_j`` is
-  computed pair by pair (:meth:`PlaneGrid.pair_values`, compiled) and replaced by the
-  exact entry.
+  computed pair by pair (:meth:`PlaneGrid.pair_values`, compiled; for a long
+  conductor from one convolution of its own charge) and replaced by the exact entry.
 
 The error of a far pair is that of the moments left out (fourth order in the stencil
 over the distance); measured against the dense matrix in docs/scale.md and checked in
@@ -35,6 +35,7 @@ copper (probe leads, wires) has its pairs with every segment stored exactly
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -62,6 +63,13 @@ MAX_BYTES = 256 * 2**20
 is widened until they fit (then more pairs fall within the near distance)."""
 CHUNK_BYTES = 128 * 2**20
 """Bytes of the charges' and potentials' spectra per batch of columns in a product."""
+LONG_NODES = 64
+"""A conductor carried by more grid nodes than this (a trace several spacings long) has
+its grid values computed by one convolution of its own charge (a column of the grid's
+operator) instead of pair by pair: a pair's cost is the product of the two node
+counts, and a long conductor is near every segment within its (long) near radius."""
+MAX_LONG_BYTES = 256 * 2**20
+"""Bytes of those columns at most (the conductors with the most nodes first)."""
 _FLAT = 1e-12
 """A conductor is horizontal when ``|u_z|`` is below this, vertical when ``|u_x|`` and
 ``|u_y|`` are."""
@@ -112,6 +120,8 @@ class PlaneGrid:
     pair_dz: np.ndarray  # (nz, nz) int64
     shape_fft: tuple[int, int]
     kernel_hat: np.ndarray  # (n_dz, fx, fy // 2 + 1) complex
+    long_index: np.ndarray | None = None  # (K,) row of long_values, -1: pair by pair
+    long_values: np.ndarray | None = None  # (n_long, K) 1/m: P_i^T K P_j of long i
 
     @property
     def nz(self) -> int:
@@ -146,11 +156,44 @@ class PlaneGrid:
         return out
 
     def pair_values(self, ii: np.ndarray, jj: np.ndarray) -> np.ndarray:
-        """The grid's own ``P_i^T K P_j`` (1/m) for conductor pairs (ii[k], jj[k])."""
-        return _pair_values(np.ascontiguousarray(ii, np.int64),
-                            np.ascontiguousarray(jj, np.int64),
-                            self.proj.indptr.astype(np.int64), self.proj.indices.astype(np.int64),
-                            self.proj.data, self.nx, self.ny, self.table, self.pair_dz)
+        """The grid's own ``P_i^T K P_j`` (1/m) for conductor pairs (ii[k], jj[k]): read
+        from the long conductors' columns (:data:`LONG_NODES`), else summed pair by pair
+        over both conductors' nodes."""
+        ii = np.ascontiguousarray(ii, np.int64)
+        jj = np.ascontiguousarray(jj, np.int64)
+        out = np.empty(ii.size)
+        rest = np.ones(ii.size, dtype=bool)
+        if self.long_index is not None and self.long_values is not None:
+            li, lj = self.long_index[ii], self.long_index[jj]
+            a, b = li >= 0, (li < 0) & (lj >= 0)
+            out[a] = self.long_values[li[a], jj[a]]
+            out[b] = self.long_values[lj[b], ii[b]]
+            rest = ~(a | b)
+        out[rest] = _pair_values(ii[rest], jj[rest], self.proj.indptr.astype(np.int64),
+                                 self.proj.indices.astype(np.int64), self.proj.data, self.nx,
+                                 self.ny, self.table, self.pair_dz)
+        return out
+
+    def with_long_columns(self) -> PlaneGrid:
+        """This grid with the columns of its long conductors (:data:`LONG_NODES`,
+        within :data:`MAX_LONG_BYTES`), each one convolution of its own charge."""
+        nodes = np.diff(self.proj.indptr)
+        k = nodes.size
+        long = np.flatnonzero(nodes > LONG_NODES)
+        if long.size == 0:
+            return self
+        long = long[np.argsort(-nodes[long], kind="stable")][:int(MAX_LONG_BYTES // (8 * k))]
+        long = np.sort(long)
+        values = np.empty((long.size, k))
+        step = 64
+        for c0 in range(0, long.size, step):
+            cols = long[c0:c0 + step]
+            unit = np.zeros((k, cols.size))
+            unit[cols, np.arange(cols.size)] = 1.0
+            values[c0:c0 + cols.size] = self.potentials(unit).T
+        index = np.full(k, -1, dtype=np.int64)
+        index[long] = np.arange(long.size)
+        return dataclasses.replace(self, long_index=index, long_values=values)
 
 
 @dataclass(frozen=True)
@@ -188,7 +231,9 @@ def grid_layout(u: np.ndarray, mid: np.ndarray, length: np.ndarray, width: np.nd
     planes = np.array([z[plane_of == p].mean() for p in range(keys.size)])
     seg = horizontal[:n_segments]
     h = 0.5 * float(np.median(np.maximum(length[:n_segments][seg], width[:n_segments][seg])))
-    reach = np.maximum(length[hz], width[hz])[:, None]
+    w_dir = np.stack([-u[hz, 1], u[hz, 0]], axis=1)  # across, in the plane
+    reach = 0.5 * (np.abs(u[hz, :2]) * length[hz][:, None]
+                   + np.abs(w_dir) * width[hz][:, None])  # extent from the middle, x and y
     lo = (mid[hz, :2] - reach).min(axis=0)
     span = (mid[hz, :2] + reach).max(axis=0) - lo
     dz = np.abs(planes[:, None] - planes[None, :])
@@ -301,9 +346,10 @@ def plane_grid(c: object, n_segments: int) -> PlaneGrid | None:
         full[:nx, fy - ny + 1:] = t[:, :0:-1]
         full[fx - nx + 1:, fy - ny + 1:] = t[:0:-1, :0:-1]
         kernel_hat[q] = sfft.rfftn(full, workers=-1)
-    return PlaneGrid(h=h, origin=x0, nx=nx, ny=ny, planes=planes, horizontal=horizontal,
-                     inclined=layout.inclined, proj=proj,
-                     table=table, pair_dz=pair_dz, shape_fft=(fx, fy), kernel_hat=kernel_hat)
+    grid = PlaneGrid(h=h, origin=x0, nx=nx, ny=ny, planes=planes, horizontal=horizontal,
+                     inclined=layout.inclined, proj=proj, table=table, pair_dz=pair_dz,
+                     shape_fft=(fx, fy), kernel_hat=kernel_hat)
+    return grid.with_long_columns()
 
 
 @nb.njit(cache=True, parallel=True)
