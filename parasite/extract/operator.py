@@ -81,8 +81,10 @@ BOARD_FAR_FIELD = "grid"
 by FFT. Measured at 4,674 segments: a product of 4 real columns in 0.012 s against
 0.57 s by the multipole sums with the points split across the width (1.3e-5), 0.17 s
 on the centre lines (4.0e-4); the three loops' GMRES solves in 1.0 s against 25 s.
-A board the grid does not fit (inclined copper) takes the multipole sums with the split
-points."""
+Vias keep the multipole sums, inclined copper (probe leads) has its pairs stored
+exactly, and a board the grid does not fit (more inclined copper than
+:data:`parasite.extract.plane_grid.MAX_INCLINED_PAIRS` allows, more than 16 heights)
+takes the multipole sums with the split points."""
 BOARD_WIDTH_POINTS = True
 """Whether the multipole sums of the same path split the far field's points across the
 width (``ACROSS``; vertical copper, and boards the grid does not fit). With the split a
@@ -98,8 +100,9 @@ product error (1.58e-5) 1.25 times quicker."""
 FAR_FIELDS = ("multipole", "grid")
 """The far fields of :class:`FastInductance`: ``"multipole"`` (every conductor's points,
 fmm3dpy) or ``"grid"`` (horizontal copper on layer grids by FFT,
-:mod:`parasite.extract.plane_grid`; vertical copper by multipoles; a board the grid
-does not fit, with inclined copper or too many heights, falls back to multipoles)."""
+:mod:`parasite.extract.plane_grid`; vertical copper by multipoles, inclined copper's
+pairs exact; a board the grid does not fit, with too much inclined copper or too many
+heights, falls back to multipoles)."""
 GL2 = 0.5 / np.sqrt(3.0)
 """The 2-point Gauss-Legendre nodes on [-1/2, 1/2] are -GL2, +GL2 (weights 1/2)."""
 ACROSS = {True: (-1.0, 1.0), False: (0.0,)}
