@@ -174,13 +174,9 @@ class FastInductance:
         self.eps = eps
         self.section_ratio = section_ratio
         self._c, self._img, self._mz, self._diag = c, img, mz, diag
-        radius = near_scale * np.maximum(3.5 * c.length[:n],
-                                         c.length[:n] + section_ratio * c.size[:n])
         self.grid = plane_grid(c, n) if far_field == "grid" else None
         self.far_field = "grid" if self.grid is not None else "multipole"
-        if self.grid is not None:  # pairs closer than the grid resolves are stored exactly
-            radius = grid_radii(radius, c.mid[:n, :2], self.grid.horizontal,
-                                self.grid.inclined, self.grid.h)
+        radius = _radii(c, n, section_ratio, near_scale, self.grid)
         self.near_radius = radius
         self.near_scale = near_scale
         # the near field block by block of rows (parasite.extract.near_field), in this
@@ -303,23 +299,28 @@ class FastInductance:
         return (1e-7 * (direct + IMAGE_SIGN * 0.5 * (a_term + b_term))).T
 
 
+def _radii(c: Any, n: int, section_ratio: float, near_scale: float,
+           grid: Any | None) -> np.ndarray:
+    """The near radii (m) of the ``n`` segments of the conductor table ``c``
+    (module docstring); with a grid (a :class:`parasite.extract.plane_grid.PlaneGrid` or
+    its ``Layout``), :func:`parasite.extract.plane_grid.grid_radii`."""
+    radius = near_scale * np.maximum(3.5 * c.length[:n], c.length[:n] + section_ratio * c.size[:n])
+    if grid is None:
+        return radius
+    return grid_radii(radius, c.mid[:n, :2], grid.horizontal, grid.inclined, grid.h)
+
+
 def near_radius(arrays: SegmentArrays, section_ratio: float = 10.0,
                 near_scale: float = 1.0, far_field: str = "multipole") -> np.ndarray:
-    """The near radius of every segment (m): ``near_scale max(3.5 l, l + section_ratio h)``
-    (module docstring), from the segment arrays alone (h: the larger of width and
-    thickness, the section size of a bar; 2 radius for a round conductor); with the
-    grid's far field, at least half its near distance on horizontal copper (as
-    :class:`FastInductance`)."""
-    length = np.linalg.norm(arrays.end - arrays.start, axis=1)
-    size = np.maximum(arrays.width, arrays.thickness)
-    radius = near_scale * np.maximum(3.5 * length, length + section_ratio * size)
-    if far_field == "grid":
-        c = tables(arrays)[0]
-        layout = grid_layout(c.u, c.mid, c.length, c.width, len(arrays))
-        if layout is not None:
-            radius = grid_radii(radius, c.mid[:len(arrays), :2], layout.horizontal,
-                                layout.inclined, layout.h)
-    return radius
+    """The near radius of every segment (m) as :class:`FastInductance` sets it:
+    ``near_scale max(3.5 l, l + section_ratio h)`` (module docstring; h the section
+    size: the larger of width and thickness of a bar, 2 radius for a round conductor),
+    with the grid's far field at least half its near distance on horizontal copper."""
+    n = len(arrays)
+    c = tables(arrays)[0]
+    layout = (grid_layout(c.u, c.mid, c.length, c.width, n) if far_field == "grid"
+              else None)
+    return _radii(c, n, section_ratio, near_scale, layout)
 
 
 def count_near_pairs(arrays: SegmentArrays, section_ratio: float = 10.0,

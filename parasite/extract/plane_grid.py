@@ -256,10 +256,16 @@ def grid_radii(radius: np.ndarray, xy: np.ndarray, horizontal: np.ndarray,
     return out
 
 
+def grid_shape(span: np.ndarray, h: float) -> tuple[int, int]:
+    """Nodes (x, y) of a grid of spacing ``h`` over ``span`` (m) with its margins (the
+    stencils reach 2 spacings past a piece's centre)."""
+    nx, ny = (int(math.ceil(s / h)) + 6 for s in span)
+    return nx, ny
+
+
 def spectrum_bytes(span: np.ndarray, h: float) -> float:
-    """Bytes of one plane's zero-padded real-FFT spectrum (complex128) of a grid of
-    spacing ``h`` over ``span`` (m, x and y) with its margins."""
-    nx, ny = (math.ceil(s / h) + 6 for s in span)
+    """Bytes of one plane's zero-padded real-FFT spectrum (complex128) of that grid."""
+    nx, ny = grid_shape(span, h)
     return 16.0 * (2 * nx) * (ny + 1)
 
 
@@ -277,7 +283,7 @@ def plane_grid(c: object, n_segments: int) -> PlaneGrid | None:
     hz = np.flatnonzero(horizontal)
     mid, length, width = all_mid[hz], all_length[hz], all_width[hz]
     x0 = layout.lo - 2.0 * h
-    nx, ny = (int(math.ceil(s / h)) + 6 for s in layout.span)
+    nx, ny = grid_shape(layout.span, h)
 
     # pieces at most 2 h on a side, their centres and (along, across) sizes
     n_l = np.maximum(1, np.ceil(length / (2.0 * h) - 1e-9)).astype(np.int64)

@@ -77,6 +77,12 @@ def test_stored_pairs_are_those_within_the_radii(section_ratio: float, near_scal
     assert np.shares_memory(op._corr.indices, near.indices)
     assert np.shares_memory(op._corr.indptr, near.indptr)
     assert near.indices.dtype == np.int32
+    # with the layer grids: the radii's floor adds pairs, counted by the same rule
+    grid = FastInductance(arrays, section_ratio=section_ratio, near_scale=near_scale,
+                          far_field="grid")
+    assert grid.pairs_near >= op.pairs_near
+    assert count_near_pairs(arrays, section_ratio, near_scale, "grid") \
+        == grid.pairs_near // 2
 
 
 def test_block_size_does_not_change_a_bit() -> None:
